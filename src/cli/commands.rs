@@ -1,0 +1,352 @@
+//! One function per command.
+
+use super::args::{
+    Command, FinalizeArgs, PredictArgs, ResumeArgs, SearchArgs, SpaceArgs, StrategyArg, TrainArgs,
+};
+use super::progress::ProgressObserver;
+use super::show::show;
+use super::EXIT_INTERRUPTED;
+use crate::bundle::ModelBundle;
+use crate::evaluate::{scores_map, TrainerSettings};
+use crate::genome::{LayerGenome, SearchSpace};
+use crate::render::layer_graph;
+use crate::search::{AgingSettings, Budget, SearchEnding, SearchOutcome};
+use crate::train::{train, TrainSettings};
+use crate::workflow::{finalize, resume_job, FinalizeOptions, SearchJob, StrategyChoice};
+use crate::Error;
+use anyhow::{Context, Result};
+use std::io::Write;
+use std::sync::atomic::AtomicBool;
+
+/// Runs one command; returns the exit code on success.
+pub fn dispatch(command: Command, stop: &AtomicBool) -> Result<i32> {
+    match command {
+        Command::Train(a) => train_command(a),
+        Command::Predict(a) => predict_command(a),
+        Command::Space(a) => space_command(a),
+        Command::Search(a) => search_command(a, stop),
+        Command::Resume(a) => resume_command(a, stop),
+        Command::Show(a) => show(&a.run, a.top),
+        Command::Finalize(a) => finalize_command(a),
+    }
+}
+
+fn warn_all(warnings: &[String]) {
+    for w in warnings {
+        eprintln!("gemmule: warning: {w}");
+    }
+}
+
+fn train_command(a: TrainArgs) -> Result<i32> {
+    let source = a.data.source()?;
+    let text = std::fs::read_to_string(&a.genome).map_err(|e| Error::io(&a.genome, e))?;
+    let genome = LayerGenome::from_json(&text, &a.genome.display().to_string())?;
+    genome
+        .validate_basic()
+        .map_err(|e| Error::input(format!("{}: {e}", a.genome.display())))?;
+    let prepared = source.prepare()?;
+    warn_all(&prepared.info.warnings);
+    let settings = TrainSettings {
+        max_epochs: a.epochs,
+        patience: a.patience,
+        seed: a.seed,
+    };
+    let outcome = train(&genome, &prepared.train, Some(&prepared.valid), &settings)?;
+    println!("genome {} on {}", genome.id(), source.path.display());
+    print!(
+        "{}",
+        layer_graph(
+            &genome,
+            Some(prepared.info.n_features),
+            Some(prepared.info.class_names.len()),
+            false
+        )
+    );
+    println!(
+        "rows: {} train, {} validation ({} test rows stay sealed)",
+        prepared.info.rows_train, prepared.info.rows_valid, prepared.info.rows_test
+    );
+    println!("parameters: {}", outcome.model.param_count());
+    println!(
+        "status: {:?}, {} epochs (best {}), {:.2} s, {:.4} s per epoch",
+        outcome.status,
+        outcome.epochs_run,
+        outcome.best_epoch,
+        outcome.seconds,
+        outcome.seconds / f64::from(outcome.epochs_run.max(1))
+    );
+    if let Some(scores) = &outcome.scores {
+        for (name, value) in scores_map(scores) {
+            println!("validation {name}: {value:.4}");
+        }
+    }
+    let provenance = serde_json::json!({
+        "made_by": "train",
+        "data_fingerprint": prepared.info.fingerprint,
+        "seed": a.seed,
+        "epochs_run": outcome.epochs_run,
+        "best_epoch": outcome.best_epoch,
+        "validation_scores": outcome.scores.as_ref().map(scores_map),
+    });
+    ModelBundle::new(outcome.model, prepared.preprocessor, provenance).save(&a.out)?;
+    println!("model saved in {}", a.out.display());
+    Ok(0)
+}
+
+fn predict_command(a: PredictArgs) -> Result<i32> {
+    let bundle = ModelBundle::load(&a.model)?;
+    let delimiter = match a.delimiter {
+        Some(c) if !c.is_ascii() => {
+            return Err(Error::input(format!(
+                "--delimiter must be one ASCII character, got {c:?}"
+            ))
+            .into())
+        }
+        other => other.map(|c| c as u8),
+    };
+    let predictions = bundle.predict_csv(&a.data, delimiter)?;
+    warn_all(&predictions.warnings);
+    let mut out = String::from("row,predicted");
+    for name in &predictions.class_names {
+        out.push_str(&format!(",p_{}", csv_safe(name)));
+    }
+    out.push('\n');
+    let k = predictions.class_names.len();
+    for (row, &class) in predictions.classes.iter().enumerate() {
+        out.push_str(&format!(
+            "{},{}",
+            row + 1,
+            csv_safe(&predictions.class_names[class as usize])
+        ));
+        for p in &predictions.probabilities[row * k..(row + 1) * k] {
+            out.push_str(&format!(",{p:.6}"));
+        }
+        out.push('\n');
+    }
+    match &a.out {
+        Some(path) => {
+            crate::fsio::write_atomic(path, out.as_bytes())?;
+            eprintln!(
+                "{} predictions written to {}",
+                predictions.classes.len(),
+                path.display()
+            );
+        }
+        None => {
+            let _ = std::io::stdout().write_all(out.as_bytes());
+        }
+    }
+    if let Some(labels) = &predictions.labels {
+        let correct = labels
+            .iter()
+            .zip(&predictions.classes)
+            .filter(|(a, b)| a == b)
+            .count();
+        eprintln!(
+            "accuracy on the labelled rows: {:.4} ({correct} of {})",
+            correct as f64 / labels.len().max(1) as f64,
+            labels.len()
+        );
+    }
+    Ok(0)
+}
+
+fn csv_safe(text: &str) -> String {
+    if text.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", text.replace('"', "\"\""))
+    } else {
+        text.to_string()
+    }
+}
+
+fn space_command(a: SpaceArgs) -> Result<i32> {
+    let space = a.space()?;
+    println!(
+        "hidden layers {}..={}, widths {}..={}, activations [{}], residual skips {}",
+        space.min_layers,
+        space.max_layers,
+        space.min_width,
+        space.max_width,
+        space
+            .activations
+            .iter()
+            .map(|a| a.name())
+            .collect::<Vec<_>>()
+            .join(", "),
+        if space.residual { "allowed" } else { "off" }
+    );
+    for depth in space.min_layers..=space.max_layers {
+        println!(
+            "  stacks with {depth} hidden layers: {}",
+            space.stacks_at_depth(depth)
+        );
+    }
+    println!(
+        "  training-gene combinations: {}",
+        space.training_combinations()
+    );
+    println!("members: {}", space.size());
+    Ok(0)
+}
+
+fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
+    let source = a.data.source()?;
+    let space = a.space.space()?;
+    let strategy = match a.strategy {
+        StrategyArg::Random => {
+            if a.population.is_some() || a.sample_size.is_some() {
+                return Err(Error::input(
+                    "--population and --sample-size apply to --strategy evolution only",
+                )
+                .into());
+            }
+            StrategyChoice::Random
+        }
+        StrategyArg::Evolution => {
+            let mut settings = AgingSettings::for_budget(a.budget);
+            if let Some(p) = a.population {
+                settings.population = p;
+                if a.sample_size.is_none() {
+                    settings.sample_size = crate::search::default_sample_size(p);
+                }
+            }
+            if let Some(s) = a.sample_size {
+                settings.sample_size = s;
+            }
+            StrategyChoice::Evolution(Some(settings))
+        }
+    };
+    let jobs = match a.jobs {
+        Some(0) => return Err(Error::input("--jobs must be at least 1").into()),
+        Some(j) => j,
+        None => std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(1),
+    };
+    let job = SearchJob {
+        source,
+        space,
+        strategy,
+        trainer: TrainerSettings {
+            max_epochs: a.epochs,
+            patience: a.patience,
+            objective: a.objective,
+            max_params: a.max_params,
+            max_madds: a.max_madds,
+        },
+        seed: a.seed,
+        jobs,
+        budget: Budget {
+            evaluations: a.budget,
+            seconds: a.time_limit,
+        },
+    };
+    eprintln!(
+        "searching {} members of the space with {} ({} evaluations, {} jobs, seed {})",
+        job.space.size(),
+        match job.strategy {
+            StrategyChoice::Random => "random search".to_string(),
+            StrategyChoice::Evolution(Some(s)) =>
+                format!("aging evolution P={} S={}", s.population, s.sample_size),
+            StrategyChoice::Evolution(None) => "aging evolution".to_string(),
+        },
+        job.budget.evaluations,
+        jobs,
+        job.seed
+    );
+    let mut observer = ProgressObserver::new(a.quiet);
+    let outcome = job.run(&a.out, &mut observer, stop);
+    observer.finish();
+    report_outcome(&a.out, outcome?)
+}
+
+fn resume_command(a: ResumeArgs, stop: &AtomicBool) -> Result<i32> {
+    let budget = match (a.budget, a.time_limit) {
+        (None, None) => None,
+        (evaluations, seconds) => {
+            let (recorded, _) = SearchJob::from_run_dir(&a.run)?;
+            Some(Budget {
+                evaluations: evaluations.unwrap_or(recorded.budget.evaluations),
+                seconds,
+            })
+        }
+    };
+    let mut observer = ProgressObserver::new(a.quiet);
+    let outcome = resume_job(&a.run, a.data.clone(), budget, &mut observer, stop);
+    observer.finish();
+    report_outcome(&a.run, outcome?)
+}
+
+fn report_outcome(run: &std::path::Path, outcome: SearchOutcome) -> Result<i32> {
+    // Warnings (stale lock, torn line) already went through the observer.
+    let best = outcome.best.map_or("none scored".to_string(), |(i, v)| {
+        format!("{v:.4} (evaluation {i})")
+    });
+    println!(
+        "{} evaluations in the journal ({} new); best validation objective {best}",
+        outcome.evaluations, outcome.new_evaluations
+    );
+    match outcome.ending {
+        SearchEnding::BudgetSpent => {
+            println!(
+                "see `gemmule show {0}`, then `gemmule finalize {0}`",
+                run.display()
+            );
+            Ok(0)
+        }
+        SearchEnding::TimeUp => {
+            println!(
+                "time limit reached; continue with `gemmule resume {}`",
+                run.display()
+            );
+            Ok(0)
+        }
+        SearchEnding::Stopped => {
+            println!("stopped; continue with `gemmule resume {}`", run.display());
+            Ok(EXIT_INTERRUPTED)
+        }
+    }
+}
+
+fn finalize_command(a: FinalizeArgs) -> Result<i32> {
+    let options = FinalizeOptions {
+        top_k: a.top_k,
+        repeats: a.repeats,
+        reopen: a.reopen,
+    };
+    let report = finalize(&a.run, &options).context("finalize")?;
+    println!(
+        "chosen: evaluation {} (genome {}), {}",
+        report.index, report.id, report.selection
+    );
+    println!("validation objective: {:.4}", report.validation_objective);
+    print!("{}", layer_graph(&report.genome, None, None, false));
+    println!(
+        "retrained on {} rows (train+validation) for {} epochs, seed {}",
+        report.trained_rows, report.epochs, report.seed
+    );
+    println!(
+        "test split opened: this is opening number {} of this run's test split",
+        report.opening
+    );
+    let acc = report
+        .test_scores
+        .get("accuracy")
+        .copied()
+        .unwrap_or(f64::NAN);
+    let (lo, hi) = report.test_accuracy_interval;
+    println!(
+        "test accuracy: {acc:.4} (95% Wilson interval {lo:.4}..{hi:.4}, {} rows)",
+        report.test_rows
+    );
+    for (name, value) in &report.test_scores {
+        if name != "accuracy" {
+            println!("test {name}: {value:.4}");
+        }
+    }
+    println!(
+        "final model saved in {}",
+        a.run.join(&report.model_dir).display()
+    );
+    Ok(0)
+}

@@ -1,0 +1,146 @@
+//! The real evaluator: trains a layer genome on the training split and
+//! scores it on the validation split.
+
+use crate::data::Dataset;
+use crate::genome::LayerGenome;
+use crate::net::layer_cost;
+use crate::search::{EvalStatus, Evaluation, Evaluator};
+use crate::train::{train, Objective, Scores, TrainSettings, TrainStatus};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// How every candidate of a search is trained and ranked; recorded in the
+/// journal header so compared runs can be shown to share it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TrainerSettings {
+    /// Most epochs a candidate trains.
+    pub max_epochs: u32,
+    /// Epochs without a lower validation loss before stopping (0 = never stop early).
+    pub patience: u32,
+    /// The validation score candidates are ranked by.
+    pub objective: Objective,
+    /// Candidates with more trainable parameters are not trained ("over budget").
+    #[serde(default)]
+    pub max_params: Option<u64>,
+    /// Candidates with more multiply-adds per sample are not trained ("over budget").
+    #[serde(default)]
+    pub max_madds: Option<u64>,
+}
+
+impl Default for TrainerSettings {
+    /// 30 epochs, patience 5, ranked by accuracy, no size caps.
+    fn default() -> Self {
+        TrainerSettings {
+            max_epochs: 30,
+            patience: 5,
+            objective: Objective::Accuracy,
+            max_params: None,
+            max_madds: None,
+        }
+    }
+}
+
+impl TrainerSettings {
+    /// Checks the settings are usable.
+    pub fn check(&self) -> crate::Result<()> {
+        if self.max_epochs == 0 {
+            return Err(crate::Error::input("epochs must be at least 1"));
+        }
+        Ok(())
+    }
+}
+
+/// All scores by name, as the journal stores them.
+pub fn scores_map(scores: &Scores) -> BTreeMap<String, f64> {
+    BTreeMap::from([
+        ("accuracy".to_string(), scores.accuracy),
+        ("balanced_accuracy".to_string(), scores.balanced_accuracy),
+        ("log_loss".to_string(), scores.log_loss),
+        ("macro_f1".to_string(), scores.macro_f1),
+    ])
+}
+
+/// Trains candidates on `train` and scores them on `valid`.
+#[derive(Debug, Clone)]
+pub struct TrainingEvaluator {
+    train: Dataset,
+    valid: Dataset,
+    settings: TrainerSettings,
+}
+
+impl TrainingEvaluator {
+    /// An evaluator over the given splits.
+    pub fn new(train: Dataset, valid: Dataset, settings: TrainerSettings) -> Self {
+        TrainingEvaluator {
+            train,
+            valid,
+            settings,
+        }
+    }
+
+    /// The settings candidates are trained with.
+    pub fn settings(&self) -> &TrainerSettings {
+        &self.settings
+    }
+}
+
+impl Evaluator<LayerGenome> for TrainingEvaluator {
+    fn evaluate(&self, genome: &LayerGenome, seed: u64) -> Evaluation {
+        let cost = layer_cost(genome, self.train.n_features, self.train.n_classes);
+        let mut evaluation = Evaluation {
+            status: EvalStatus::Completed,
+            objective: None,
+            scores: BTreeMap::new(),
+            params: Some(cost.params),
+            madds: Some(cost.madds),
+            epochs: 0,
+            best_epoch: 0,
+            message: None,
+        };
+        let over = match (self.settings.max_params, self.settings.max_madds) {
+            (Some(cap), _) if cost.params > cap => Some(format!(
+                "{} parameters is over the cap of {cap}",
+                cost.params
+            )),
+            (_, Some(cap)) if cost.madds > cap => Some(format!(
+                "{} multiply-adds is over the cap of {cap}",
+                cost.madds
+            )),
+            _ => None,
+        };
+        if let Some(message) = over {
+            evaluation.status = EvalStatus::OverBudget;
+            evaluation.message = Some(message);
+            return evaluation;
+        }
+        let settings = TrainSettings {
+            max_epochs: self.settings.max_epochs,
+            patience: self.settings.patience,
+            seed,
+        };
+        match train(genome, &self.train, Some(&self.valid), &settings) {
+            Ok(outcome) => {
+                evaluation.epochs = outcome.epochs_run;
+                evaluation.best_epoch = outcome.best_epoch;
+                evaluation.status = match outcome.status {
+                    TrainStatus::Completed => EvalStatus::Completed,
+                    TrainStatus::EarlyStopped => EvalStatus::EarlyStopped,
+                    TrainStatus::Diverged => EvalStatus::Diverged,
+                };
+                if let Some(scores) = outcome
+                    .scores
+                    .filter(|_| outcome.status != TrainStatus::Diverged)
+                {
+                    evaluation.objective = Some(self.settings.objective.value(&scores));
+                    evaluation.scores = scores_map(&scores);
+                }
+            }
+            Err(e) => {
+                evaluation.status = EvalStatus::Failed;
+                evaluation.message = Some(e.to_string());
+            }
+        }
+        evaluation
+    }
+}

@@ -1,0 +1,333 @@
+//! The built network: a layer genome turned into candle tensors.
+
+use std::collections::HashMap;
+
+use candle_core::{DType, Device, Tensor, Var};
+use rand::RngCore;
+
+use super::dense::{Affine, HiddenLayer};
+use super::init::{initial_weights, InitScheme};
+use super::param_spec::{parameter_specs, ParameterSpec};
+use super::seeded::seeded_rng;
+use crate::genome::LayerGenome;
+use crate::{Error, Result};
+
+/// The seeded stream initial weights are drawn from.
+const INIT_STREAM: u64 = 0;
+
+/// A multilayer perceptron built from a [`LayerGenome`]: hidden layers in
+/// order, then a linear output layer giving one logit per class.
+///
+/// Parameters are candle tensors named `layers.{i}.weight`, `layers.{i}.bias`,
+/// `output.weight` and `output.bias`; weights have shape (fan_in, fan_out)
+/// and each layer computes z = h·W + b (transpose them for PyTorch's
+/// (out, in) `nn.Linear` layout). Networks made by [`Mlp::build`] and
+/// [`Mlp::from_weights`] hold trainable candle variables; copies made by
+/// [`Mlp::frozen_copy`] hold plain tensors.
+#[derive(Clone, Debug)]
+pub struct Mlp {
+    hidden: Vec<HiddenLayer>,
+    output: Affine,
+    n_inputs: usize,
+    n_classes: usize,
+}
+
+impl Mlp {
+    /// Builds a trainable network for `n_inputs` features and `n_classes`
+    /// classes with seeded initial weights (see the `init` notes: He uniform
+    /// for relu/GELU layers, Glorot uniform for tanh/sigmoid layers and the
+    /// output layer, zero biases). The same seed always gives the same weights.
+    pub fn build(
+        genome: &LayerGenome,
+        n_inputs: usize,
+        n_classes: usize,
+        seed: u64,
+    ) -> Result<Mlp> {
+        let specs = checked_specs(genome, n_inputs, n_classes)?;
+        let mut rng = seeded_rng(seed, INIT_STREAM);
+        let schemes = genome
+            .layers
+            .iter()
+            .map(|layer| InitScheme::for_activation(layer.activation))
+            .chain(std::iter::once(InitScheme::GlorotUniform));
+        let mut values = Vec::with_capacity(specs.len());
+        for (pair, scheme) in specs.chunks(2).zip(schemes) {
+            let (fan_in, fan_out) = (pair[0].shape[0], pair[0].shape[1]);
+            values.push(initial_weights(scheme, fan_in, fan_out, &mut rng));
+            values.push(vec![0.0; fan_out]);
+        }
+        Self::from_weights(genome, n_inputs, n_classes, &values)
+    }
+
+    /// Builds a trainable network with the given parameter values, one
+    /// row-major vector per tensor in [`parameter_specs`] order. For tests and
+    /// tools (reference checks, imported weights); training uses [`Mlp::build`].
+    /// A wrong count or size is an [`Error::Input`] naming the tensor.
+    pub fn from_weights(
+        genome: &LayerGenome,
+        n_inputs: usize,
+        n_classes: usize,
+        weights: &[Vec<f32>],
+    ) -> Result<Mlp> {
+        let specs = checked_specs(genome, n_inputs, n_classes)?;
+        if weights.len() != specs.len() {
+            return Err(Error::input(format!(
+                "expected {} parameter tensors ({}), got {}",
+                specs.len(),
+                spec_names(&specs),
+                weights.len()
+            )));
+        }
+        let mut tensors = Vec::with_capacity(specs.len());
+        for (spec, values) in specs.iter().zip(weights) {
+            if values.len() != spec.elem_count() {
+                return Err(Error::input(format!(
+                    "tensor {} has {} values but the genome needs shape {:?} ({} values)",
+                    spec.name,
+                    values.len(),
+                    spec.shape,
+                    spec.elem_count()
+                )));
+            }
+            let var = Var::from_slice(values, spec.shape.as_slice(), &Device::Cpu)?;
+            tensors.push(var.into_inner());
+        }
+        Self::assemble(genome, n_inputs, n_classes, tensors)
+    }
+
+    /// Builds a frozen (non-trainable) network from named tensors, as read
+    /// from a weights file. Every tensor of the genome must be present as f32
+    /// with its exact shape and no other tensor may be present; otherwise an
+    /// [`Error::Input`] names the offending tensor.
+    pub fn from_named_tensors(
+        genome: &LayerGenome,
+        n_inputs: usize,
+        n_classes: usize,
+        tensors: &HashMap<String, Tensor>,
+    ) -> Result<Mlp> {
+        let specs = checked_specs(genome, n_inputs, n_classes)?;
+        let mut ordered = Vec::with_capacity(specs.len());
+        for spec in &specs {
+            let tensor = tensors.get(&spec.name).ok_or_else(|| {
+                Error::input(format!(
+                    "tensor {} is missing (the genome needs {})",
+                    spec.name,
+                    spec_names(&specs)
+                ))
+            })?;
+            if tensor.dtype() != DType::F32 {
+                return Err(Error::input(format!(
+                    "tensor {} has dtype {:?}, expected f32",
+                    spec.name,
+                    tensor.dtype()
+                )));
+            }
+            if tensor.dims() != spec.shape.as_slice() {
+                return Err(Error::input(format!(
+                    "tensor {} has shape {:?} but the genome needs {:?}",
+                    spec.name,
+                    tensor.dims(),
+                    spec.shape
+                )));
+            }
+            ordered.push(tensor.contiguous()?.detach());
+        }
+        let mut extra: Vec<&String> = tensors
+            .keys()
+            .filter(|name| !specs.iter().any(|spec| &spec.name == *name))
+            .collect();
+        extra.sort();
+        if let Some(name) = extra.first() {
+            return Err(Error::input(format!(
+                "unexpected tensor {name}: the genome needs exactly {}",
+                spec_names(&specs)
+            )));
+        }
+        Self::assemble(genome, n_inputs, n_classes, ordered)
+    }
+
+    fn assemble(
+        genome: &LayerGenome,
+        n_inputs: usize,
+        n_classes: usize,
+        tensors: Vec<Tensor>,
+    ) -> Result<Mlp> {
+        let mut tensors = tensors.into_iter();
+        let mut next_affine = || match (tensors.next(), tensors.next()) {
+            (Some(weight), Some(bias)) => Ok(Affine { weight, bias }),
+            _ => Err(Error::internal("too few tensors to assemble the network")),
+        };
+        let mut hidden = Vec::with_capacity(genome.layers.len());
+        for layer in &genome.layers {
+            hidden.push(HiddenLayer {
+                affine: next_affine()?,
+                activation: layer.activation,
+                residual: layer.residual,
+                dropout: layer.dropout,
+            });
+        }
+        let output = next_affine()?;
+        Ok(Mlp {
+            hidden,
+            output,
+            n_inputs,
+            n_classes,
+        })
+    }
+
+    /// Number of input features.
+    pub fn n_inputs(&self) -> usize {
+        self.n_inputs
+    }
+
+    /// Number of classes (output logits).
+    pub fn n_classes(&self) -> usize {
+        self.n_classes
+    }
+
+    /// The parameter tensors in [`parameter_specs`] order.
+    pub fn parameters(&self) -> Vec<&Tensor> {
+        let affines = self.hidden.iter().map(|layer| &layer.affine);
+        affines
+            .chain(std::iter::once(&self.output))
+            .flat_map(|affine| [&affine.weight, &affine.bias])
+            .collect()
+    }
+
+    /// The parameter names in [`parameter_specs`] order.
+    pub fn parameter_names(&self) -> Vec<String> {
+        let prefixes = (0..self.hidden.len())
+            .map(|i| format!("layers.{i}"))
+            .chain(std::iter::once("output".to_string()));
+        prefixes
+            .flat_map(|prefix| [format!("{prefix}.weight"), format!("{prefix}.bias")])
+            .collect()
+    }
+
+    /// Total number of parameter values (sum of the tensors' element counts).
+    pub fn param_count(&self) -> u64 {
+        self.parameters()
+            .iter()
+            .map(|t| t.elem_count() as u64)
+            .sum()
+    }
+
+    /// The logits, shape (rows, n_classes), for `x` of shape (rows, n_inputs).
+    /// With `train`, dropout is applied with masks drawn from `rng`; without
+    /// it `rng` is not used. On a trainable network the result is recorded
+    /// for back-propagation.
+    pub fn forward<R: RngCore>(&self, x: &Tensor, train: bool, rng: &mut R) -> Result<Tensor> {
+        let rng: Option<&mut dyn RngCore> = if train { Some(rng) } else { None };
+        self.run(x, rng)
+    }
+
+    /// The logits for `x` without dropout and without recording a graph:
+    /// for validation and prediction.
+    pub fn forward_eval(&self, x: &Tensor) -> Result<Tensor> {
+        self.detached().run(x, None)
+    }
+
+    fn run(&self, x: &Tensor, mut dropout_rng: Option<&mut dyn RngCore>) -> Result<Tensor> {
+        let mut h = x.clone();
+        for layer in &self.hidden {
+            h = layer.forward(&h, dropout_rng.as_deref_mut())?;
+        }
+        Ok(self.output.forward(&h)?)
+    }
+
+    /// The current parameter values, one row-major vector per tensor in
+    /// [`parameter_specs`] order.
+    pub fn weights(&self) -> Result<Vec<Vec<f32>>> {
+        self.parameters()
+            .into_iter()
+            .map(|t| Ok(t.flatten_all()?.to_vec1::<f32>()?))
+            .collect()
+    }
+
+    /// A deep copy with plain (non-trainable) tensors: later updates of this
+    /// network do not change it.
+    pub fn frozen_copy(&self) -> Result<Mlp> {
+        self.map_tensors(|t| Ok(t.copy()?.detach()))
+    }
+
+    /// A view sharing this network's storage without graph recording.
+    pub(crate) fn detached(&self) -> Mlp {
+        let map = |affine: &Affine| Affine {
+            weight: affine.weight.detach(),
+            bias: affine.bias.detach(),
+        };
+        Mlp {
+            hidden: self
+                .hidden
+                .iter()
+                .map(|layer| HiddenLayer {
+                    affine: map(&layer.affine),
+                    ..layer.clone()
+                })
+                .collect(),
+            output: map(&self.output),
+            n_inputs: self.n_inputs,
+            n_classes: self.n_classes,
+        }
+    }
+
+    /// The same architecture holding `tensors` (in [`parameter_specs`] order,
+    /// same shapes) instead of this network's parameters.
+    pub(crate) fn with_parameters(&self, tensors: Vec<Tensor>) -> Result<Mlp> {
+        if tensors.len() != 2 * self.hidden.len() + 2 {
+            return Err(Error::internal(
+                "parameter count does not match the network",
+            ));
+        }
+        let mut tensors = tensors.into_iter();
+        self.map_tensors(|old| match tensors.next() {
+            Some(new) if new.dims() == old.dims() => Ok(new),
+            _ => Err(Error::internal(
+                "parameter shape does not match the network",
+            )),
+        })
+    }
+
+    fn map_tensors(&self, mut f: impl FnMut(&Tensor) -> Result<Tensor>) -> Result<Mlp> {
+        let mut map = |affine: &Affine| -> Result<Affine> {
+            Ok(Affine {
+                weight: f(&affine.weight)?,
+                bias: f(&affine.bias)?,
+            })
+        };
+        let mut hidden = Vec::with_capacity(self.hidden.len());
+        for layer in &self.hidden {
+            hidden.push(HiddenLayer {
+                affine: map(&layer.affine)?,
+                ..layer.clone()
+            });
+        }
+        Ok(Mlp {
+            hidden,
+            output: map(&self.output)?,
+            n_inputs: self.n_inputs,
+            n_classes: self.n_classes,
+        })
+    }
+}
+
+/// The genome's parameter specs after checking the genome and the sizes.
+fn checked_specs(
+    genome: &LayerGenome,
+    n_inputs: usize,
+    n_classes: usize,
+) -> Result<Vec<ParameterSpec>> {
+    if n_inputs == 0 {
+        return Err(Error::input("the network needs at least one input feature"));
+    }
+    if n_classes == 0 {
+        return Err(Error::input("the network needs at least one class"));
+    }
+    genome.validate_basic()?;
+    Ok(parameter_specs(genome, n_inputs, n_classes))
+}
+
+fn spec_names(specs: &[ParameterSpec]) -> String {
+    let names: Vec<&str> = specs.iter().map(|spec| spec.name.as_str()).collect();
+    names.join(", ")
+}

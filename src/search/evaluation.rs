@@ -1,0 +1,50 @@
+//! The evaluator seam: how a strategy learns what a genome is worth.
+
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// How an evaluation ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EvalStatus {
+    /// Trained for the whole epoch budget.
+    Completed,
+    /// Stopped by early stopping on validation loss (best weights restored).
+    EarlyStopped,
+    /// The training loss became NaN or infinite.
+    Diverged,
+    /// Over the parameter or multiply-add cap; not trained.
+    OverBudget,
+    /// The evaluation failed (e.g. a panic in the worker); see `message`.
+    Failed,
+}
+
+/// The result of evaluating one genome once.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Evaluation {
+    /// How it ended.
+    pub status: EvalStatus,
+    /// The search objective on the validation split, higher is better; `None`
+    /// when there is no score (diverged, over budget, failed), which ranks below any score.
+    pub objective: Option<f64>,
+    /// All validation scores by name (e.g. `accuracy`, `log_loss`), sorted by name.
+    pub scores: BTreeMap<String, f64>,
+    /// Trainable parameters, when known.
+    pub params: Option<u64>,
+    /// Multiply-adds per sample (forward), when known.
+    pub madds: Option<u64>,
+    /// Epochs trained (0 when not trained).
+    pub epochs: u32,
+    /// Best epoch by validation loss (1-based; 0 when not trained).
+    pub best_epoch: u32,
+    /// A short explanation for `Failed` or `OverBudget`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub message: Option<String>,
+}
+
+/// Scores genomes. Implementations must be deterministic in (`genome`, `seed`)
+/// and single-threaded, so the scheduler can run several side by side.
+pub trait Evaluator<G>: Send + Sync {
+    /// Evaluates `genome`, with every random choice drawn from `seed`.
+    fn evaluate(&self, genome: &G, seed: u64) -> Evaluation;
+}

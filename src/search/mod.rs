@@ -1,0 +1,38 @@
+//! Search: strategies that propose genomes, the evaluator seam, the
+//! deterministic parallel scheduler and the run journal.
+//!
+//! A run directory holds `journal.jsonl` (byte-deterministic: header,
+//! evaluations, test openings), `timings.jsonl` (everything time-dependent)
+//! and `lock` (the owner's pid while a process works on the run).
+
+mod aging;
+mod budget;
+mod evaluation;
+mod journal;
+mod journal_read;
+mod lock;
+mod observer;
+mod plan;
+mod pool;
+mod random;
+mod records;
+mod run;
+mod scheduler;
+pub mod seeds;
+mod strategy;
+mod summary;
+mod timings;
+
+pub use aging::{AgingEvolution, AgingSettings};
+pub use budget::{default_population, default_sample_size, Budget};
+pub use evaluation::{EvalStatus, Evaluation, Evaluator};
+pub use journal::{Journal, JournalContents, JOURNAL_FILE};
+pub use lock::{RunLock, LOCK_FILE};
+pub use observer::{QuietObserver, SearchObserver};
+pub use plan::{check_same_run, SearchPlan};
+pub use random::RandomSampling;
+pub use records::{EvaluationRecord, RunHeader, StrategyInfo, JOURNAL_FORMAT, TOOL_VERSION};
+pub use run::{resume_search, run_search, SearchContext, SearchEnding, SearchOutcome};
+pub use strategy::{compare_objectives, Proposal, Strategy};
+pub use summary::RunSummary;
+pub use timings::{TimingEntry, TimingLog, TIMINGS_FILE};

@@ -1,0 +1,156 @@
+//! The records of a run journal (one JSON object per line, tagged by `"kind"`).
+
+use super::budget::Budget;
+use super::evaluation::{EvalStatus, Evaluation};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// The journal format this gemmule writes (and the newest it reads).
+pub const JOURNAL_FORMAT: u32 = 1;
+
+/// The version of this gemmule, recorded in every journal header.
+pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
+
+/// Which strategy a run uses and how it is set up.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct StrategyInfo {
+    /// The strategy's name (see `Strategy::name`).
+    pub name: String,
+    /// Its settings (see `Strategy::settings`).
+    pub settings: serde_json::Value,
+}
+
+/// The first line of a journal (`"kind":"header"`): everything a run's results depend on.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RunHeader {
+    /// Journal format version ([`JOURNAL_FORMAT`] when written by this gemmule).
+    pub format: u32,
+    /// The gemmule version that created the run.
+    pub tool_version: String,
+    /// The strategy and its settings.
+    pub strategy: StrategyInfo,
+    /// The run seed every proposal and evaluation seed is derived from.
+    pub seed: u64,
+    /// Worker threads; the journal depends on it (it fixes what each proposal has seen).
+    pub jobs: usize,
+    /// The budget the run was created with. Later sessions may raise or lower
+    /// it; their budgets are recorded in `timings.jsonl`, not here.
+    pub budget: Budget,
+    /// The search space's settings (filled by the caller).
+    pub space: serde_json::Value,
+    /// The data's identity: source, fingerprint, split (filled by the caller).
+    pub data: serde_json::Value,
+    /// The trainer's settings (filled by the caller).
+    pub trainer: serde_json::Value,
+}
+
+/// Header fields that may differ between the sessions of one run.
+pub const SESSION_FIELDS: [&str; 3] = ["format", "tool_version", "budget"];
+
+/// One evaluated candidate (`"kind":"evaluation"`), at journal position `index`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct EvaluationRecord<G> {
+    /// Position in the journal: 0, 1, 2, … without gaps.
+    pub index: u64,
+    /// The genome's short id.
+    pub id: String,
+    /// The genome.
+    pub genome: G,
+    /// Journal index of its parent, if derived from one.
+    pub parent: Option<u64>,
+    /// The parent's short id.
+    pub parent_id: Option<String>,
+    /// The mutation that produced it from the parent.
+    pub mutation: Option<String>,
+    /// The seed the evaluator was given.
+    pub seed: u64,
+    /// How the evaluation ended.
+    pub status: EvalStatus,
+    /// The objective (higher is better); `None` ranks below every score.
+    pub objective: Option<f64>,
+    /// All validation scores by name.
+    pub scores: BTreeMap<String, f64>,
+    /// Trainable parameters, when known.
+    pub params: Option<u64>,
+    /// Multiply-adds per sample, when known.
+    pub madds: Option<u64>,
+    /// Epochs trained.
+    pub epochs: u32,
+    /// Best epoch by validation loss (1-based, 0 when not trained).
+    pub best_epoch: u32,
+    /// Explanation for failures, over-budget candidates and dropped values.
+    pub message: Option<String>,
+}
+
+impl<G> EvaluationRecord<G> {
+    /// The evaluation as strategies observe it.
+    pub fn evaluation(&self) -> Evaluation {
+        Evaluation {
+            status: self.status,
+            objective: self.objective,
+            scores: self.scores.clone(),
+            params: self.params,
+            madds: self.madds,
+            epochs: self.epochs,
+            best_epoch: self.best_epoch,
+            message: self.message.clone(),
+        }
+    }
+}
+
+/// Makes an evaluation storable in JSON, which has no NaN or infinity.
+///
+/// A non-finite objective becomes `None` and non-finite scores are dropped,
+/// both noted in `message`. Strategies observe the stored form, live and on
+/// resume alike.
+pub fn storable(mut evaluation: Evaluation) -> Evaluation {
+    let mut dropped = Vec::new();
+    if let Some(value) = evaluation.objective.filter(|value| !value.is_finite()) {
+        dropped.push(format!("objective={value}"));
+        evaluation.objective = None;
+    }
+    evaluation.scores.retain(|name, value| {
+        let keep = value.is_finite();
+        if !keep {
+            dropped.push(format!("{name}={value}"));
+        }
+        keep
+    });
+    if !dropped.is_empty() {
+        let note = format!("non-finite values dropped: {}", dropped.join(", "));
+        evaluation.message = Some(match evaluation.message {
+            Some(text) => format!("{text}; {note}"),
+            None => note,
+        });
+    }
+    evaluation
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn non_finite_values_are_dropped_and_noted() {
+        let evaluation = Evaluation {
+            status: EvalStatus::Diverged,
+            objective: Some(f64::NAN),
+            scores: [
+                ("accuracy".to_string(), 0.5),
+                ("log_loss".to_string(), f64::INFINITY),
+            ]
+            .into_iter()
+            .collect(),
+            params: Some(3),
+            madds: None,
+            epochs: 2,
+            best_epoch: 1,
+            message: None,
+        };
+        let stored = storable(evaluation);
+        assert_eq!(stored.objective, None);
+        assert_eq!(stored.scores.len(), 1);
+        let message = stored.message.unwrap_or_default();
+        assert!(message.contains("objective=NaN") && message.contains("log_loss=inf"));
+    }
+}

@@ -1,0 +1,306 @@
+//! The deterministic parallel scheduler.
+//!
+//! Proposals are made in index order; proposal k is made only after the
+//! results `0..=k - jobs` were committed (in index order) and before any
+//! later one is, so the strategy's view never depends on which worker
+//! finishes first. Results are committed strictly in index order; early
+//! finishers wait in a buffer. On resume, the first `done` proposals are
+//! re-derived and checked against the journal instead of being evaluated,
+//! and their journaled results are observed in the same order.
+
+use super::evaluation::Evaluator;
+use super::journal::Journal;
+use super::plan::SearchPlan;
+use super::pool::{Finished, WorkerPool};
+use super::records::{storable, EvaluationRecord};
+use super::run::{SearchContext, SearchEnding};
+use super::seeds::{evaluation_seed, proposal_rng};
+use super::strategy::{compare_objectives, Proposal};
+use super::timings::{TimingEntry, TimingLog};
+use crate::genome::SearchSpace;
+use crate::{Error, Result};
+use std::cmp::Ordering as Rank;
+use std::collections::BTreeMap;
+use std::sync::atomic::Ordering;
+use std::time::{Duration, Instant};
+
+/// How long the scheduler waits for a result before rechecking the stop flag.
+const POLL: Duration = Duration::from_millis(20);
+
+/// A proposal that was made and not yet committed.
+struct Candidate<G> {
+    proposal: Proposal<G>,
+    id: String,
+    seed: u64,
+}
+
+/// The state of one search session.
+pub(crate) struct Driver<'a, 'c, S: SearchSpace, E> {
+    plan: &'a SearchPlan,
+    context: SearchContext<'c, S, E>,
+    journal: Journal,
+    timings: TimingLog,
+    /// Records already in the journal, re-derived instead of evaluated.
+    replay: Vec<EvaluationRecord<S::Genome>>,
+    /// The gemmule version that wrote the journal, for error messages.
+    written_by: String,
+    pool: WorkerPool<S::Genome>,
+    ids: Vec<String>,
+    in_flight: BTreeMap<u64, Candidate<S::Genome>>,
+    finished: BTreeMap<u64, Finished>,
+    next_proposal: u64,
+    next_commit: u64,
+    best: Option<(u64, f64)>,
+    deadline: Option<Instant>,
+}
+
+/// Where a session writes and what it continues from.
+pub(crate) struct SessionFiles<G> {
+    pub journal: Journal,
+    pub timings: TimingLog,
+    /// Records already in the journal (empty for a new run).
+    pub replay: Vec<EvaluationRecord<G>>,
+    /// The gemmule version that wrote the journal.
+    pub written_by: String,
+}
+
+impl<'a, 'c, S, E> Driver<'a, 'c, S, E>
+where
+    S: SearchSpace,
+    E: Evaluator<S::Genome> + 'static,
+{
+    /// Prepares a session: starts the workers and the clock.
+    pub fn new(
+        plan: &'a SearchPlan,
+        context: SearchContext<'c, S, E>,
+        files: SessionFiles<S::Genome>,
+    ) -> Result<Self> {
+        let pool = WorkerPool::start(context.evaluator.clone(), plan.jobs)?;
+        let deadline = plan
+            .budget
+            .seconds
+            .and_then(|seconds| Duration::try_from_secs_f64(seconds).ok())
+            .and_then(|limit| Instant::now().checked_add(limit));
+        Ok(Driver {
+            plan,
+            context,
+            journal: files.journal,
+            timings: files.timings,
+            replay: files.replay,
+            written_by: files.written_by,
+            pool,
+            ids: Vec::new(),
+            in_flight: BTreeMap::new(),
+            finished: BTreeMap::new(),
+            next_proposal: 0,
+            next_commit: 0,
+            best: None,
+            deadline,
+        })
+    }
+
+    /// Evaluations in the journal, of them new in this session, and the best so far.
+    pub fn tally(&self) -> (u64, u64, Option<(u64, f64)>) {
+        let before = self.replay.len() as u64;
+        (
+            self.next_commit,
+            self.next_commit.saturating_sub(before),
+            self.best,
+        )
+    }
+
+    fn limit(&self) -> u64 {
+        self.plan.budget.evaluations.max(self.replay.len() as u64)
+    }
+
+    fn stopped(&self) -> bool {
+        self.context.stop.load(Ordering::SeqCst)
+    }
+
+    fn ending(&self) -> SearchEnding {
+        if self.next_commit >= self.limit() {
+            SearchEnding::BudgetSpent
+        } else if self.stopped() {
+            SearchEnding::Stopped
+        } else {
+            SearchEnding::TimeUp
+        }
+    }
+
+    /// Runs the session until the budget is spent, time is up or the stop flag is set.
+    pub fn run(&mut self) -> Result<SearchEnding> {
+        let window = self.plan.jobs as u64;
+        loop {
+            if self.stopped() {
+                return self.wind_down();
+            }
+            while self.next_proposal < self.limit()
+                && self.next_proposal < self.next_commit + window
+                && self.may_propose()
+            {
+                self.propose_next()?;
+            }
+            if self.next_commit == self.next_proposal {
+                return Ok(self.ending());
+            }
+            if self.next_commit < self.replay.len() as u64 {
+                self.commit_replayed()?;
+            } else if let Some(result) = self.finished.remove(&self.next_commit) {
+                self.commit_live(result)?;
+            } else {
+                self.pool.wait(POLL, &mut self.finished)?;
+            }
+        }
+    }
+
+    /// After a stop: commits results that are already in, abandons the rest.
+    fn wind_down(&mut self) -> Result<SearchEnding> {
+        if self.next_commit >= self.replay.len() as u64 {
+            self.pool.collect_ready(&mut self.finished);
+            while let Some(result) = self.finished.remove(&self.next_commit) {
+                self.commit_live(result)?;
+            }
+        }
+        Ok(self.ending())
+    }
+
+    fn may_propose(&self) -> bool {
+        if self.next_proposal < self.replay.len() as u64 {
+            return true;
+        }
+        let time_up = self
+            .deadline
+            .is_some_and(|deadline| Instant::now() >= deadline);
+        !self.stopped() && !time_up
+    }
+
+    fn propose_next(&mut self) -> Result<()> {
+        let index = self.next_proposal;
+        let mut rng = proposal_rng(self.plan.seed, index);
+        let proposal = self.context.strategy.propose(index, &mut rng);
+        let seed = evaluation_seed(self.plan.seed, index);
+        let name = self.context.strategy.name();
+        if proposal.parent.is_some_and(|parent| parent >= index) {
+            return Err(Error::internal(format!(
+                "strategy {name} gave proposal {index} a parent that was not proposed before it"
+            )));
+        }
+        self.context.space.validate(&proposal.genome).map_err(|e| {
+            Error::internal(format!(
+                "strategy {name} proposed a genome outside the space at {index}: {e}"
+            ))
+        })?;
+        let id = self.context.space.genome_id(&proposal.genome);
+        match self.replay.get(index as usize) {
+            Some(record) => check_replay(record, &proposal, seed, &self.written_by)?,
+            None => self.pool.dispatch(index, proposal.genome.clone(), seed)?,
+        }
+        self.ids.push(id.clone());
+        self.in_flight
+            .insert(index, Candidate { proposal, id, seed });
+        self.next_proposal += 1;
+        Ok(())
+    }
+
+    fn take_candidate(&mut self, index: u64) -> Result<Candidate<S::Genome>> {
+        self.in_flight
+            .remove(&index)
+            .ok_or_else(|| Error::internal(format!("no proposal {index} to commit")))
+    }
+
+    fn note_best(&mut self, index: u64, objective: Option<f64>) {
+        let current = self.best.map(|(_, value)| value);
+        if let Some(value) = objective {
+            if compare_objectives(Some(value), current) == Rank::Greater {
+                self.best = Some((index, value));
+            }
+        }
+    }
+
+    fn commit_replayed(&mut self) -> Result<()> {
+        let index = self.next_commit;
+        let candidate = self.take_candidate(index)?;
+        let (evaluation, objective) = match self.replay.get(index as usize) {
+            Some(record) => (record.evaluation(), record.objective),
+            None => return Err(Error::internal(format!("no journal record {index}"))),
+        };
+        let genome = &candidate.proposal.genome;
+        self.context.strategy.observe(index, genome, &evaluation);
+        self.note_best(index, objective);
+        self.next_commit += 1;
+        Ok(())
+    }
+
+    fn commit_live(&mut self, result: Finished) -> Result<()> {
+        let index = self.next_commit;
+        let candidate = self.take_candidate(index)?;
+        let evaluation = storable(result.evaluation);
+        let parent_id = candidate
+            .proposal
+            .parent
+            .and_then(|parent| self.ids.get(parent as usize).cloned());
+        let record = EvaluationRecord {
+            index,
+            id: candidate.id,
+            genome: candidate.proposal.genome,
+            parent: candidate.proposal.parent,
+            parent_id,
+            mutation: candidate.proposal.mutation,
+            seed: candidate.seed,
+            status: evaluation.status,
+            objective: evaluation.objective,
+            scores: evaluation.scores.clone(),
+            params: evaluation.params,
+            madds: evaluation.madds,
+            epochs: evaluation.epochs,
+            best_epoch: evaluation.best_epoch,
+            message: evaluation.message.clone(),
+        };
+        self.journal.append_evaluation(&record)?;
+        self.timings.append(&TimingEntry::Timing {
+            index,
+            seconds: result.seconds,
+            finished_unix: result.finished_unix,
+        })?;
+        self.context
+            .strategy
+            .observe(index, &record.genome, &evaluation);
+        self.note_best(index, record.objective);
+        self.next_commit += 1;
+        let best = self.best.map(|(_, value)| value);
+        let budget = self.plan.budget.evaluations;
+        self.context
+            .observer
+            .on_commit(&record, best, self.next_commit, budget);
+        Ok(())
+    }
+}
+
+/// Checks that a re-derived proposal equals what the journal recorded.
+fn check_replay<G: PartialEq>(
+    record: &EvaluationRecord<G>,
+    proposal: &Proposal<G>,
+    seed: u64,
+    written_by: &str,
+) -> Result<()> {
+    let differing = [
+        ("genome", record.genome != proposal.genome),
+        ("parent", record.parent != proposal.parent),
+        ("mutation", record.mutation != proposal.mutation),
+        ("seed", record.seed != seed),
+    ];
+    let names: Vec<&str> = differing
+        .iter()
+        .filter(|(_, differs)| *differs)
+        .map(|(name, _)| *name)
+        .collect();
+    if names.is_empty() {
+        return Ok(());
+    }
+    Err(Error::internal(format!(
+        "resuming: proposal {} re-derived with a different {} than the journal records; \
+         the search is not deterministic (the journal was written by gemmule {written_by})",
+        record.index,
+        names.join(", ")
+    )))
+}

@@ -1,0 +1,262 @@
+//! A whole search on a CSV file: prepare the data, build the strategy and
+//! evaluator, and run or resume the journal in a run directory.
+
+use super::data_source::DataSource;
+use crate::evaluate::{TrainerSettings, TrainingEvaluator};
+use crate::genome::{LayerGenome, LayerSpace, SearchSpace};
+use crate::search::{
+    resume_search, run_search, AgingEvolution, AgingSettings, Budget, Journal, JournalContents,
+    RandomSampling, SearchContext, SearchObserver, SearchOutcome, SearchPlan, Strategy,
+};
+use crate::{Error, Result};
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::AtomicBool;
+use std::sync::Arc;
+
+/// Which strategy proposes candidates.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StrategyChoice {
+    /// Regularized (aging) evolution; `None` settings scale with the budget.
+    Evolution(Option<AgingSettings>),
+    /// Random search over the same space.
+    Random,
+}
+
+impl StrategyChoice {
+    fn build(
+        &self,
+        space: Arc<LayerSpace>,
+        evaluations: u64,
+    ) -> Result<Box<dyn Strategy<LayerGenome>>> {
+        Ok(match self {
+            StrategyChoice::Evolution(settings) => {
+                let settings = settings.unwrap_or_else(|| AgingSettings::for_budget(evaluations));
+                Box::new(AgingEvolution::new(space, settings, evaluations)?)
+            }
+            StrategyChoice::Random => Box::new(RandomSampling::new(space)),
+        })
+    }
+
+    /// Reads the choice back from a journal header's strategy name and settings.
+    fn from_header(name: &str, settings: &Value) -> Result<Self> {
+        match name {
+            "aging_evolution" => {
+                let read = |key: &str| settings.get(key).and_then(|v| v.as_u64());
+                match (read("population"), read("sample_size")) {
+                    (Some(p), Some(s)) => Ok(StrategyChoice::Evolution(Some(AgingSettings {
+                        population: p as usize,
+                        sample_size: s as usize,
+                    }))),
+                    _ => Err(Error::input(
+                        "the journal header's aging_evolution settings lack population or sample_size",
+                    )),
+                }
+            }
+            "random_sampling" => Ok(StrategyChoice::Random),
+            other => Err(Error::input(format!(
+                "the journal names strategy `{other}`, which this gemmule does not know"
+            ))),
+        }
+    }
+}
+
+/// Everything a search needs; build it, adjust the public fields, then [`SearchJob::run`].
+#[derive(Debug, Clone)]
+pub struct SearchJob {
+    /// The data and its split.
+    pub source: DataSource,
+    /// The layer search space.
+    pub space: LayerSpace,
+    /// The strategy.
+    pub strategy: StrategyChoice,
+    /// How candidates are trained and ranked.
+    pub trainer: TrainerSettings,
+    /// Run seed: every proposal and training seed derives from it.
+    pub seed: u64,
+    /// Candidates trained at once (each on one thread); the journal depends on it.
+    pub jobs: usize,
+    /// Evaluation count and optional wall-clock limit.
+    pub budget: Budget,
+}
+
+impl SearchJob {
+    /// A search of the default space with aging evolution, 40 evaluations, seed 0, 1 job.
+    pub fn new(source: DataSource) -> Self {
+        SearchJob {
+            source,
+            space: LayerSpace::default(),
+            strategy: StrategyChoice::Evolution(None),
+            trainer: TrainerSettings::default(),
+            seed: 0,
+            jobs: 1,
+            budget: Budget::evaluations(40),
+        }
+    }
+
+    /// Sets the strategy.
+    pub fn strategy(mut self, strategy: StrategyChoice) -> Self {
+        self.strategy = strategy;
+        self
+    }
+
+    /// Sets the evaluation budget.
+    pub fn evaluations(mut self, evaluations: u64) -> Self {
+        self.budget.evaluations = evaluations;
+        self
+    }
+
+    /// Sets the run seed.
+    pub fn seed(mut self, seed: u64) -> Self {
+        self.seed = seed;
+        self
+    }
+
+    /// Sets the number of parallel jobs.
+    pub fn jobs(mut self, jobs: usize) -> Self {
+        self.jobs = jobs;
+        self
+    }
+
+    /// Sets the search space.
+    pub fn space(mut self, space: LayerSpace) -> Self {
+        self.space = space;
+        self
+    }
+
+    /// Sets the trainer settings.
+    pub fn trainer(mut self, trainer: TrainerSettings) -> Self {
+        self.trainer = trainer;
+        self
+    }
+
+    /// Starts a new run in `run_dir`, which must not hold a journal yet.
+    pub fn run(
+        &self,
+        run_dir: &Path,
+        observer: &mut dyn SearchObserver<LayerGenome>,
+        stop: &AtomicBool,
+    ) -> Result<SearchOutcome> {
+        if Journal::path_in(run_dir).exists() {
+            return Err(Error::input(format!(
+                "{} already holds a run; continue it with `gemmule resume {}` or choose another --out folder",
+                run_dir.display(),
+                run_dir.display()
+            )));
+        }
+        self.execute(run_dir, observer, stop, false)
+    }
+
+    fn execute(
+        &self,
+        run_dir: &Path,
+        observer: &mut dyn SearchObserver<LayerGenome>,
+        stop: &AtomicBool,
+        resume: bool,
+    ) -> Result<SearchOutcome> {
+        self.space.check()?;
+        self.trainer.check()?;
+        self.budget.check()?;
+        let prepared = self.source.prepare()?;
+        for warning in &prepared.info.warnings {
+            observer.on_warning(warning);
+        }
+        let space = Arc::new(self.space.clone());
+        let mut strategy = self
+            .strategy
+            .build(space.clone(), self.budget.evaluations)?;
+        let plan = SearchPlan {
+            seed: self.seed,
+            jobs: self.jobs,
+            budget: self.budget,
+            space: space.describe(),
+            data: self.source.header_block(&prepared),
+            trainer: serde_json::to_value(&self.trainer)
+                .map_err(|e| Error::internal(format!("trainer settings: {e}")))?,
+        };
+        let evaluator = Arc::new(TrainingEvaluator::new(
+            prepared.train,
+            prepared.valid,
+            self.trainer.clone(),
+        ));
+        let context = SearchContext {
+            space: space.as_ref(),
+            evaluator,
+            strategy: strategy.as_mut(),
+            observer,
+            stop,
+        };
+        if resume {
+            resume_search(run_dir, &plan, context)
+        } else {
+            run_search(run_dir, &plan, context)
+        }
+    }
+
+    /// Rebuilds the job a run directory was started with, from its journal header.
+    pub fn from_run_dir(run_dir: &Path) -> Result<(SearchJob, String)> {
+        let contents: JournalContents<Value> = Journal::read(&Journal::path_in(run_dir))?;
+        let header = contents.header;
+        let (source, fingerprint) = DataSource::from_header_block(&header.data)?;
+        let space_settings = header
+            .space
+            .get("settings")
+            .cloned()
+            .ok_or_else(|| Error::input("the journal header's space block has no settings"))?;
+        let space: LayerSpace = serde_json::from_value(space_settings).map_err(|e| {
+            Error::input(format!(
+                "the journal header's search space is unreadable: {e}"
+            ))
+        })?;
+        let trainer: TrainerSettings =
+            serde_json::from_value(header.trainer.clone()).map_err(|e| {
+                Error::input(format!(
+                    "the journal header's trainer settings are unreadable: {e}"
+                ))
+            })?;
+        let strategy =
+            StrategyChoice::from_header(&header.strategy.name, &header.strategy.settings)?;
+        let job = SearchJob {
+            source,
+            space,
+            strategy,
+            trainer,
+            seed: header.seed,
+            jobs: header.jobs,
+            budget: header.budget,
+        };
+        Ok((job, fingerprint))
+    }
+}
+
+/// Continues the run in `run_dir`.
+///
+/// `data` replaces the recorded data path (e.g. after the file moved); the
+/// file's fingerprint must still match. `budget` replaces the recorded
+/// budget (e.g. to extend a finished run).
+pub fn resume_job(
+    run_dir: &Path,
+    data: Option<PathBuf>,
+    budget: Option<Budget>,
+    observer: &mut dyn SearchObserver<LayerGenome>,
+    stop: &AtomicBool,
+) -> Result<SearchOutcome> {
+    let (mut job, fingerprint) = SearchJob::from_run_dir(run_dir)?;
+    if let Some(path) = data {
+        job.source.path = path;
+    }
+    if let Some(budget) = budget {
+        job.budget = budget;
+    }
+    let bytes = std::fs::read(&job.source.path).map_err(|e| Error::io(&job.source.path, e))?;
+    let now = crate::genome::sha256_hex(&bytes);
+    if now != fingerprint {
+        return Err(Error::input(format!(
+            "{}: the data file changed since the run started (SHA-256 {} now, {} in the journal); resume with the original file (--data PATH if it moved)",
+            job.source.path.display(),
+            &now[..12],
+            &fingerprint[..fingerprint.len().min(12)]
+        )));
+    }
+    job.execute(run_dir, observer, stop, true)
+}
