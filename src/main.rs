@@ -13,5 +13,13 @@ fn main() {
     if std::env::var_os("RAYON_NUM_THREADS").is_none() {
         std::env::set_var("RAYON_NUM_THREADS", "1");
     }
+    // `gemmule show RUN | head` must end quietly when the reader goes away,
+    // as command-line tools do, instead of failing on a closed pipe.
+    #[cfg(unix)]
+    // SAFETY: called first thing in main, before any thread exists; restores
+    // the default disposition of SIGPIPE, which is always valid.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     std::process::exit(gemmule::cli::main());
 }

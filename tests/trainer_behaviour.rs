@@ -411,4 +411,13 @@ fn objectives_are_oriented_so_higher_is_better() {
         serde_json::to_string(&Objective::MacroF1).unwrap(),
         "\"macro_f1\""
     );
+    for objective in Objective::ALL {
+        let parsed = <Objective as clap::ValueEnum>::from_str(objective.name(), false);
+        assert_eq!(parsed, Ok(objective));
+        let kebab = objective.name().replace('_', "-");
+        assert_eq!(
+            <Objective as clap::ValueEnum>::from_str(&kebab, false),
+            Ok(objective)
+        );
+    }
 }

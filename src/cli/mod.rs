@@ -25,13 +25,18 @@ pub fn main() -> i32 {
             return if e.use_stderr() { 2 } else { 0 };
         }
     };
+    // One line per panic, no backtrace: a panic inside a worker is recorded
+    // as a failed evaluation and the search goes on.
+    std::panic::set_hook(Box::new(|info| {
+        eprintln!("gemmule: internal error: {info} (inside a candidate it is recorded as failed and the search goes on)");
+    }));
     let stop = Arc::new(AtomicBool::new(false));
     let flag = stop.clone();
     let _ = ctrlc::set_handler(move || {
         if flag.swap(true, Ordering::SeqCst) {
             std::process::exit(EXIT_INTERRUPTED);
         }
-        eprintln!("\ngemmule: stopping after the evaluations in progress are abandoned; press Ctrl-C again to quit at once");
+        eprintln!("\ngemmule: stopping; finished evaluations stay in the journal, running ones are abandoned (press Ctrl-C again to quit at once)");
     });
     let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
         commands::dispatch(cli.command, &stop)

@@ -1,13 +1,11 @@
 //! The built network: a layer genome turned into candle tensors.
 
-use std::collections::HashMap;
-
-use candle_core::{DType, Device, Tensor, Var};
+use candle_core::Tensor;
 use rand::RngCore;
 
 use super::dense::{Affine, HiddenLayer};
 use super::init::{initial_weights, InitScheme};
-use super::param_spec::{parameter_specs, ParameterSpec};
+use super::mlp_from_values::checked_specs;
 use super::seeded::seeded_rng;
 use crate::genome::LayerGenome;
 use crate::{Error, Result};
@@ -26,17 +24,18 @@ const INIT_STREAM: u64 = 0;
 /// [`Mlp::frozen_copy`] hold plain tensors.
 #[derive(Clone, Debug)]
 pub struct Mlp {
-    hidden: Vec<HiddenLayer>,
-    output: Affine,
-    n_inputs: usize,
-    n_classes: usize,
+    pub(super) hidden: Vec<HiddenLayer>,
+    pub(super) output: Affine,
+    pub(super) n_inputs: usize,
+    pub(super) n_classes: usize,
 }
 
 impl Mlp {
     /// Builds a trainable network for `n_inputs` features and `n_classes`
-    /// classes with seeded initial weights (see the `init` notes: He uniform
-    /// for relu/GELU layers, Glorot uniform for tanh/sigmoid layers and the
-    /// output layer, zero biases). The same seed always gives the same weights.
+    /// classes with initial weights drawn from stream 0 of `seed`: He uniform
+    /// U(±√(6/fan_in)) for relu/GELU layers, Glorot uniform
+    /// U(±√(6/(fan_in+fan_out))) for tanh/sigmoid layers and the output layer,
+    /// zero biases. The same seed always gives the same weights.
     pub fn build(
         genome: &LayerGenome,
         n_inputs: usize,
@@ -59,122 +58,6 @@ impl Mlp {
         Self::from_weights(genome, n_inputs, n_classes, &values)
     }
 
-    /// Builds a trainable network with the given parameter values, one
-    /// row-major vector per tensor in [`parameter_specs`] order. For tests and
-    /// tools (reference checks, imported weights); training uses [`Mlp::build`].
-    /// A wrong count or size is an [`Error::Input`] naming the tensor.
-    pub fn from_weights(
-        genome: &LayerGenome,
-        n_inputs: usize,
-        n_classes: usize,
-        weights: &[Vec<f32>],
-    ) -> Result<Mlp> {
-        let specs = checked_specs(genome, n_inputs, n_classes)?;
-        if weights.len() != specs.len() {
-            return Err(Error::input(format!(
-                "expected {} parameter tensors ({}), got {}",
-                specs.len(),
-                spec_names(&specs),
-                weights.len()
-            )));
-        }
-        let mut tensors = Vec::with_capacity(specs.len());
-        for (spec, values) in specs.iter().zip(weights) {
-            if values.len() != spec.elem_count() {
-                return Err(Error::input(format!(
-                    "tensor {} has {} values but the genome needs shape {:?} ({} values)",
-                    spec.name,
-                    values.len(),
-                    spec.shape,
-                    spec.elem_count()
-                )));
-            }
-            let var = Var::from_slice(values, spec.shape.as_slice(), &Device::Cpu)?;
-            tensors.push(var.into_inner());
-        }
-        Self::assemble(genome, n_inputs, n_classes, tensors)
-    }
-
-    /// Builds a frozen (non-trainable) network from named tensors, as read
-    /// from a weights file. Every tensor of the genome must be present as f32
-    /// with its exact shape and no other tensor may be present; otherwise an
-    /// [`Error::Input`] names the offending tensor.
-    pub fn from_named_tensors(
-        genome: &LayerGenome,
-        n_inputs: usize,
-        n_classes: usize,
-        tensors: &HashMap<String, Tensor>,
-    ) -> Result<Mlp> {
-        let specs = checked_specs(genome, n_inputs, n_classes)?;
-        let mut ordered = Vec::with_capacity(specs.len());
-        for spec in &specs {
-            let tensor = tensors.get(&spec.name).ok_or_else(|| {
-                Error::input(format!(
-                    "tensor {} is missing (the genome needs {})",
-                    spec.name,
-                    spec_names(&specs)
-                ))
-            })?;
-            if tensor.dtype() != DType::F32 {
-                return Err(Error::input(format!(
-                    "tensor {} has dtype {:?}, expected f32",
-                    spec.name,
-                    tensor.dtype()
-                )));
-            }
-            if tensor.dims() != spec.shape.as_slice() {
-                return Err(Error::input(format!(
-                    "tensor {} has shape {:?} but the genome needs {:?}",
-                    spec.name,
-                    tensor.dims(),
-                    spec.shape
-                )));
-            }
-            ordered.push(tensor.contiguous()?.detach());
-        }
-        let mut extra: Vec<&String> = tensors
-            .keys()
-            .filter(|name| !specs.iter().any(|spec| &spec.name == *name))
-            .collect();
-        extra.sort();
-        if let Some(name) = extra.first() {
-            return Err(Error::input(format!(
-                "unexpected tensor {name}: the genome needs exactly {}",
-                spec_names(&specs)
-            )));
-        }
-        Self::assemble(genome, n_inputs, n_classes, ordered)
-    }
-
-    fn assemble(
-        genome: &LayerGenome,
-        n_inputs: usize,
-        n_classes: usize,
-        tensors: Vec<Tensor>,
-    ) -> Result<Mlp> {
-        let mut tensors = tensors.into_iter();
-        let mut next_affine = || match (tensors.next(), tensors.next()) {
-            (Some(weight), Some(bias)) => Ok(Affine { weight, bias }),
-            _ => Err(Error::internal("too few tensors to assemble the network")),
-        };
-        let mut hidden = Vec::with_capacity(genome.layers.len());
-        for layer in &genome.layers {
-            hidden.push(HiddenLayer {
-                affine: next_affine()?,
-                activation: layer.activation,
-                residual: layer.residual,
-                dropout: layer.dropout,
-            });
-        }
-        let output = next_affine()?;
-        Ok(Mlp {
-            hidden,
-            output,
-            n_inputs,
-            n_classes,
-        })
-    }
-
     /// Number of input features.
     pub fn n_inputs(&self) -> usize {
         self.n_inputs
@@ -185,7 +68,7 @@ impl Mlp {
         self.n_classes
     }
 
-    /// The parameter tensors in [`parameter_specs`] order.
+    /// The parameter tensors in [`parameter_specs`](crate::net::parameter_specs) order.
     pub fn parameters(&self) -> Vec<&Tensor> {
         let affines = self.hidden.iter().map(|layer| &layer.affine);
         affines
@@ -194,7 +77,7 @@ impl Mlp {
             .collect()
     }
 
-    /// The parameter names in [`parameter_specs`] order.
+    /// The parameter names in [`parameter_specs`](crate::net::parameter_specs) order.
     pub fn parameter_names(&self) -> Vec<String> {
         let prefixes = (0..self.hidden.len())
             .map(|i| format!("layers.{i}"))
@@ -236,7 +119,7 @@ impl Mlp {
     }
 
     /// The current parameter values, one row-major vector per tensor in
-    /// [`parameter_specs`] order.
+    /// [`parameter_specs`](crate::net::parameter_specs) order.
     pub fn weights(&self) -> Result<Vec<Vec<f32>>> {
         self.parameters()
             .into_iter()
@@ -271,7 +154,7 @@ impl Mlp {
         }
     }
 
-    /// The same architecture holding `tensors` (in [`parameter_specs`] order,
+    /// The same architecture holding `tensors` (in [`parameter_specs`](crate::net::parameter_specs) order,
     /// same shapes) instead of this network's parameters.
     pub(crate) fn with_parameters(&self, tensors: Vec<Tensor>) -> Result<Mlp> {
         if tensors.len() != 2 * self.hidden.len() + 2 {
@@ -309,25 +192,4 @@ impl Mlp {
             n_classes: self.n_classes,
         })
     }
-}
-
-/// The genome's parameter specs after checking the genome and the sizes.
-fn checked_specs(
-    genome: &LayerGenome,
-    n_inputs: usize,
-    n_classes: usize,
-) -> Result<Vec<ParameterSpec>> {
-    if n_inputs == 0 {
-        return Err(Error::input("the network needs at least one input feature"));
-    }
-    if n_classes == 0 {
-        return Err(Error::input("the network needs at least one class"));
-    }
-    genome.validate_basic()?;
-    Ok(parameter_specs(genome, n_inputs, n_classes))
-}
-
-fn spec_names(specs: &[ParameterSpec]) -> String {
-    let names: Vec<&str> = specs.iter().map(|spec| spec.name.as_str()).collect();
-    names.join(", ")
 }

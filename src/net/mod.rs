@@ -8,6 +8,7 @@ mod cost;
 mod dense;
 mod init;
 mod mlp;
+mod mlp_from_values;
 mod param_spec;
 mod seeded;
 

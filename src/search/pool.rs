@@ -13,6 +13,10 @@ use std::sync::mpsc::{channel, Receiver, RecvTimeoutError, Sender};
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
+/// Stack size of a worker thread (the main thread's usual size; deep
+/// networks recurse more than the 2 MiB default of spawned threads allows).
+const WORKER_STACK_BYTES: usize = 8 << 20;
+
 /// A candidate to evaluate.
 struct Task<G> {
     index: u64,
@@ -44,6 +48,7 @@ impl<G: Send + 'static> WorkerPool<G> {
             let (evaluator, queue, report) = (evaluator.clone(), queue.clone(), report.clone());
             std::thread::Builder::new()
                 .name(format!("gemmule-eval-{number}"))
+                .stack_size(WORKER_STACK_BYTES)
                 .spawn(move || work(evaluator.as_ref(), &queue, &report))
                 .map_err(|e| Error::internal(format!("cannot start a worker thread: {e}")))?;
         }

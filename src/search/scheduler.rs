@@ -75,7 +75,13 @@ where
         context: SearchContext<'c, S, E>,
         files: SessionFiles<S::Genome>,
     ) -> Result<Self> {
-        let pool = WorkerPool::start(context.evaluator.clone(), plan.jobs)?;
+        // Never more workers than evaluations left to run; `jobs` alone fixes the lag.
+        let remaining = plan
+            .budget
+            .evaluations
+            .saturating_sub(files.replay.len() as u64);
+        let workers = usize::try_from(remaining).map_or(plan.jobs, |left| plan.jobs.min(left));
+        let pool = WorkerPool::start(context.evaluator.clone(), workers.max(1))?;
         let deadline = plan
             .budget
             .seconds
