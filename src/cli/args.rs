@@ -275,6 +275,10 @@ pub struct SearchArgs {
     /// Aging evolution's tournament sample size S (default: scaled to P).
     #[arg(long, value_name = "S")]
     pub sample_size: Option<usize>,
+    /// Start aging evolution from these genomes instead of random ones: a JSON
+    /// file holding one genome or an array of genomes (e.g. minimal networks).
+    #[arg(long, value_name = "GENOMES.json")]
+    pub seed_genomes: Option<PathBuf>,
     /// Most epochs per candidate.
     #[arg(long, value_name = "N", default_value_t = 30)]
     pub epochs: u32,

@@ -240,6 +240,10 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             evaluations: a.budget,
             seconds: a.time_limit,
         },
+        seed_genomes: match &a.seed_genomes {
+            Some(path) => read_genome_list(path)?,
+            None => Vec::new(),
+        },
     };
     eprintln!(
         "searching {} members of the space with {} ({} evaluations, {} jobs, seed {})",
@@ -258,6 +262,31 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
     let outcome = job.run(&a.out, &mut observer, stop);
     observer.finish();
     report_outcome(&a.out, outcome?)
+}
+
+/// Reads one genome or a JSON array of genomes.
+fn read_genome_list(path: &std::path::Path) -> Result<Vec<LayerGenome>> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+    let name = path.display().to_string();
+    if text.trim_start().starts_with('[') {
+        let values: Vec<serde_json::Value> = serde_json::from_str(&text).map_err(|e| {
+            Error::input(format!(
+                "{name}:{}:{}: not a JSON array of genomes: {e}",
+                e.line(),
+                e.column()
+            ))
+        })?;
+        values
+            .iter()
+            .enumerate()
+            .map(|(i, v)| {
+                LayerGenome::from_json(&v.to_string(), &format!("{name} (genome {})", i + 1))
+                    .map_err(Into::into)
+            })
+            .collect()
+    } else {
+        Ok(vec![LayerGenome::from_json(&text, &name)?])
+    }
 }
 
 fn resume_command(a: ResumeArgs, stop: &AtomicBool) -> Result<i32> {

@@ -28,11 +28,17 @@ impl StrategyChoice {
         &self,
         space: Arc<LayerSpace>,
         evaluations: u64,
+        seed_genomes: &[LayerGenome],
     ) -> Result<Box<dyn Strategy<LayerGenome>>> {
         Ok(match self {
             StrategyChoice::Evolution(settings) => {
                 let settings = settings.unwrap_or_else(|| AgingSettings::for_budget(evaluations));
-                Box::new(AgingEvolution::new(space, settings, evaluations)?)
+                let strategy = AgingEvolution::new(space, settings, evaluations)?;
+                if seed_genomes.is_empty() {
+                    Box::new(strategy)
+                } else {
+                    Box::new(strategy.with_seed_genomes(seed_genomes.to_vec())?)
+                }
             }
             StrategyChoice::Random => Box::new(RandomSampling::new(space)),
         })
@@ -78,6 +84,9 @@ pub struct SearchJob {
     pub jobs: usize,
     /// Evaluation count and optional wall-clock limit.
     pub budget: Budget,
+    /// Genomes aging evolution starts from instead of random samples (e.g.
+    /// minimal networks that evolution grows); empty for random starts.
+    pub seed_genomes: Vec<LayerGenome>,
 }
 
 impl SearchJob {
@@ -91,6 +100,7 @@ impl SearchJob {
             seed: 0,
             jobs: 1,
             budget: Budget::evaluations(40),
+            seed_genomes: Vec::new(),
         }
     }
 
@@ -162,9 +172,14 @@ impl SearchJob {
             observer.on_warning(warning);
         }
         let space = Arc::new(self.space.clone());
-        let mut strategy = self
-            .strategy
-            .build(space.clone(), self.budget.evaluations)?;
+        if !self.seed_genomes.is_empty() && self.strategy == StrategyChoice::Random {
+            return Err(Error::input(
+                "seed genomes apply to aging evolution only; random search samples the whole space",
+            ));
+        }
+        let mut strategy =
+            self.strategy
+                .build(space.clone(), self.budget.evaluations, &self.seed_genomes)?;
         let plan = SearchPlan {
             seed: self.seed,
             jobs: self.jobs,
@@ -216,6 +231,14 @@ impl SearchJob {
             })?;
         let strategy =
             StrategyChoice::from_header(&header.strategy.name, &header.strategy.settings)?;
+        let seed_genomes: Vec<LayerGenome> = match header.strategy.settings.get("seed_genomes") {
+            Some(value) => serde_json::from_value(value.clone()).map_err(|e| {
+                Error::input(format!(
+                    "the journal header's seed genomes are unreadable: {e}"
+                ))
+            })?,
+            None => Vec::new(),
+        };
         let job = SearchJob {
             source,
             space,
@@ -224,6 +247,7 @@ impl SearchJob {
             seed: header.seed,
             jobs: header.jobs,
             budget: header.budget,
+            seed_genomes,
         };
         Ok((job, fingerprint))
     }
