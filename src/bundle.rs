@@ -91,6 +91,7 @@ impl ModelBundle {
         let weights = dir.join(WEIGHTS_FILE);
         let temp = temp_sibling(&weights);
         self.model.save_safetensors(&temp)?;
+        readable_by_all(&temp)?;
         commit_temp(&temp, &weights)?;
         let json = serde_json::to_vec_pretty(&self.description)
             .map_err(|e| Error::internal(format!("model description: {e}")))?;
@@ -188,6 +189,17 @@ impl ModelBundle {
             warnings: encoded.warnings,
         })
     }
+}
+
+/// Gives a file the usual 0644 permissions (the tensor writer creates 0600).
+fn readable_by_all(path: &Path) -> Result<()> {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        std::fs::set_permissions(path, std::fs::Permissions::from_mode(0o644))
+            .map_err(|e| Error::io(path, e))?;
+    }
+    Ok(())
 }
 
 fn read_table_for_prediction(path: &Path, options: &CsvOptions) -> Result<crate::data::Table> {

@@ -13,12 +13,13 @@ pub enum Error {
     #[error("{0}")]
     Input(String),
     /// A file could not be read or written.
-    #[error("{}: {source}", path.display())]
+    #[error("{}: {cause}", path.display())]
     Io {
         /// The file or folder involved.
         path: PathBuf,
-        /// What the operating system said.
-        source: std::io::Error,
+        /// What the operating system said (kept out of the error chain so
+        /// the message is printed once).
+        cause: std::io::Error,
     },
     /// A tensor operation failed inside candle (a bug on our side, not bad input).
     #[error("tensor library: {0}")]
@@ -46,7 +47,7 @@ impl Error {
     pub fn io(path: impl Into<PathBuf>, source: std::io::Error) -> Self {
         Error::Io {
             path: path.into(),
-            source,
+            cause: source,
         }
     }
 
@@ -54,7 +55,7 @@ impl Error {
     pub fn exit_code(&self) -> i32 {
         match self {
             Error::Input(_) => 2,
-            Error::Io { source, .. } if source.kind() == std::io::ErrorKind::NotFound => 2,
+            Error::Io { cause, .. } if cause.kind() == std::io::ErrorKind::NotFound => 2,
             _ => 1,
         }
     }

@@ -348,4 +348,7 @@ pub struct FinalizeArgs {
     /// Open the test split again although it was opened before.
     #[arg(long)]
     pub reopen: bool,
+    /// The data file, if it moved since the run started (its content must be unchanged).
+    #[arg(long, value_name = "FILE.csv")]
+    pub data: Option<PathBuf>,
 }

@@ -10,7 +10,7 @@ use crate::bundle::ModelBundle;
 use crate::evaluate::{scores_map, TrainerSettings};
 use crate::genome::{LayerGenome, SearchSpace};
 use crate::render::layer_graph;
-use crate::search::{AgingSettings, Budget, SearchEnding, SearchOutcome};
+use crate::search::{AgingSettings, Budget, Journal, SearchEnding, SearchOutcome};
 use crate::train::{train, TrainSettings};
 use crate::workflow::{finalize, resume_job, FinalizeOptions, SearchJob, StrategyChoice};
 use crate::Error;
@@ -296,10 +296,18 @@ fn resume_command(a: ResumeArgs, stop: &AtomicBool) -> Result<i32> {
             let (recorded, _) = SearchJob::from_run_dir(&a.run)?;
             Some(Budget {
                 evaluations: evaluations.unwrap_or(recorded.budget.evaluations),
-                seconds,
+                seconds: seconds.or(recorded.budget.seconds),
             })
         }
     };
+    let opened = Journal::read::<serde_json::Value>(&Journal::path_in(&a.run))
+        .map(|c| c.openings.len())
+        .unwrap_or(0);
+    if opened > 0 {
+        eprintln!(
+            "gemmule: warning: the test split of this run was already opened {opened} time(s); a test score after more searching is no longer an unbiased estimate"
+        );
+    }
     let mut observer = ProgressObserver::new(a.quiet);
     let outcome = resume_job(&a.run, a.data.clone(), budget, &mut observer, stop);
     observer.finish();
@@ -342,6 +350,7 @@ fn finalize_command(a: FinalizeArgs) -> Result<i32> {
         top_k: a.top_k,
         repeats: a.repeats,
         reopen: a.reopen,
+        data: a.data.clone(),
     };
     let report = finalize(&a.run, &options).context("finalize")?;
     println!(
@@ -349,7 +358,15 @@ fn finalize_command(a: FinalizeArgs) -> Result<i32> {
         report.index, report.id, report.selection
     );
     println!("validation objective: {:.4}", report.validation_objective);
-    print!("{}", layer_graph(&report.genome, None, None, false));
+    print!(
+        "{}",
+        layer_graph(
+            &report.genome,
+            Some(report.n_inputs),
+            Some(report.n_classes),
+            false
+        )
+    );
     println!(
         "retrained on {} rows (train+validation) for {} epochs, seed {}",
         report.trained_rows, report.epochs, report.seed

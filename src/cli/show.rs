@@ -59,7 +59,7 @@ pub fn show(run: &Path, top: usize) -> Result<i32> {
         *statuses.entry(name).or_default() += 1;
     }
     println!(
-        "{} evaluations ({}), {:.1} CPU seconds of training",
+        "{} evaluations ({}), {:.1} s of training summed over candidates",
         summary.evaluations,
         statuses
             .iter()

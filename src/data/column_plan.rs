@@ -184,7 +184,7 @@ fn fit_numeric(
     let std = (filled.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / n).sqrt();
     if !(mean.is_finite() && std.is_finite() && std > 0.0) {
         return Err(Error::input(format!(
-            "column '{name}': its values are too large to standardise (mean {mean}, std {std}); \
+            "column '{name}': its values are too large to standardise (mean {mean:.3e}, std {std:.3e}); \
              rescale the column"
         )));
     }

@@ -17,11 +17,14 @@ pub(crate) fn check_delimiter(delimiter: u8) -> Result<u8> {
 /// empty names, duplicates.
 pub(crate) fn check_header(file: &str, names: &[String], delimiter: u8) -> Result<()> {
     if let [only] = names {
-        for (other, shown) in [(b';', "';'"), (b'\t', "a tab")] {
+        for (other, shown, word, flag) in [
+            (b';', "';'", "semicolon", "';'"),
+            (b'\t', "a tab", "tab", "$'\\t'"),
+        ] {
             if delimiter != other && only.contains(other as char) {
                 return Err(Error::input(format!(
                     "{file}: the header has a single column '{only}' that contains {shown}; the \
-                     file looks {shown}-separated, so pass the delimiter option ({shown})"
+                     file looks {word}-separated, so pass --delimiter {flag}"
                 )));
             }
         }

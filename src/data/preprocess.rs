@@ -60,7 +60,7 @@ impl Preprocessor {
         if features.is_empty() {
             return Err(Error::input(format!(
                 "{}: there are no feature columns besides the label '{}'; check the delimiter \
-                 and the label option",
+                 and --label",
                 table.file(),
                 table.label_name()
             )));
@@ -260,7 +260,7 @@ fn refuse_missing(table: &Table, features: &[usize]) -> Result<()> {
     }
     Err(Error::input(format!(
         "{}: {} in feature columns (empty, NA, NaN or ?): {}; fill them in, remove those rows, \
-         or turn on imputation (the impute option)",
+         or pass --impute to fill them from the training split",
         table.file(),
         count_of(missing.total(), "missing cell"),
         missing.describe()

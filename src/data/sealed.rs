@@ -33,8 +33,6 @@ impl<T> Sealed<T> {
     }
 
     /// Breaks the seal. Called only by the final evaluation.
-    // Not called yet inside the library: the final evaluation is being written.
-    #[allow(dead_code)]
     pub(crate) fn open(self, purpose: &str) -> (T, Opening) {
         let opening = Opening {
             purpose: purpose.to_string(),

@@ -23,7 +23,7 @@ const RECHECK_STREAM: u64 = 0x0072_6563_6865_636b;
 const FINAL_STREAM: u64 = 0x0066_696e_616c_6c79;
 
 /// How the final pick is made.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq)]
 pub struct FinalizeOptions {
     /// Re-train the best `top_k` distinct genomes (1 = take the best record as it is).
     pub top_k: usize,
@@ -31,6 +31,8 @@ pub struct FinalizeOptions {
     pub repeats: usize,
     /// Open the test split even though it was opened before (every report says how often).
     pub reopen: bool,
+    /// The data file, if it moved since the run started (its content must be unchanged).
+    pub data: Option<std::path::PathBuf>,
 }
 
 impl Default for FinalizeOptions {
@@ -39,6 +41,7 @@ impl Default for FinalizeOptions {
             top_k: 1,
             repeats: 1,
             reopen: false,
+            data: None,
         }
     }
 }
@@ -68,6 +71,10 @@ pub struct FinalReport {
     pub trained_rows: usize,
     /// Rows of the test split.
     pub test_rows: usize,
+    /// Encoded input features of the model.
+    pub n_inputs: usize,
+    /// Classes.
+    pub n_classes: usize,
     /// Test scores by name.
     pub test_scores: BTreeMap<String, f64>,
     /// Wilson 95% interval of the test accuracy.
@@ -92,7 +99,10 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         return Err(Error::input("--top-k and --repeats must be at least 1"));
     }
     let (lock, _) = RunLock::acquire(run_dir)?;
-    let (job, fingerprint) = SearchJob::from_run_dir(run_dir)?;
+    let (mut job, fingerprint) = SearchJob::from_run_dir(run_dir)?;
+    if let Some(path) = &options.data {
+        job.source.path = path.clone();
+    }
     let contents: JournalContents<LayerGenome> = Journal::read(&Journal::path_in(run_dir))?;
     let openings = contents.openings.len();
     if openings > 0 && !options.reopen {
@@ -104,7 +114,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
     let prepared = job.source.prepare()?;
     if prepared.info.fingerprint != fingerprint {
         return Err(Error::input(format!(
-            "{}: the data file changed since the run started; finalize needs the original file",
+            "{}: the data file changed since the run started; finalize needs the original file (--data PATH if it moved)",
             job.source.path.display()
         )));
     }
@@ -138,6 +148,8 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         seed,
         trained_rows: train_valid.len(),
         test_rows: test.len(),
+        n_inputs: test.n_features,
+        n_classes: test.n_classes,
         test_scores: scores_map(&scores),
         test_accuracy_interval: wilson_interval(correct, test.len() as u64),
         model_dir: FINAL_MODEL_DIR.into(),
