@@ -72,7 +72,7 @@ pub struct LayerGene {
     #[serde(default)]
     pub residual: bool,
     /// Dropout probability applied to the layer's output during training, in [0, 1).
-    #[serde(default)]
+    #[serde(default, serialize_with = "short_f32")]
     pub dropout: f32,
 }
 
@@ -183,6 +183,34 @@ impl LayerGenome {
             ))
         })
     }
+}
+
+/// Writes an `f32` as the `f64` with the same shortest decimal form, so JSON
+/// shows `0.1` rather than `0.10000000149011612` wherever the value passes
+/// through `serde_json::Value` (which widens floats to `f64`).
+pub(crate) fn short_f32<S: serde::Serializer>(
+    value: &f32,
+    serializer: S,
+) -> Result<S::Ok, S::Error> {
+    serializer.serialize_f64(widen(*value))
+}
+
+/// The `f64` whose shortest decimal form equals `value`'s.
+pub(crate) fn widen(value: f32) -> f64 {
+    value.to_string().parse::<f64>().unwrap_or(f64::from(value))
+}
+
+/// Like [`short_f32`] for a list.
+pub(crate) fn short_f32_list<S: serde::Serializer>(
+    values: &[f32],
+    serializer: S,
+) -> Result<S::Ok, S::Error> {
+    use serde::ser::SerializeSeq;
+    let mut seq = serializer.serialize_seq(Some(values.len()))?;
+    for v in values {
+        seq.serialize_element(&widen(*v))?;
+    }
+    seq.end()
 }
 
 /// First 12 hex digits of the SHA-256 of `bytes`.

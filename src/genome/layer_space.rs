@@ -30,6 +30,7 @@ pub struct LayerSpace {
     /// Whether residual skips are part of the space.
     pub residual: bool,
     /// Allowed dropout probabilities.
+    #[serde(serialize_with = "super::layer::short_f32_list")]
     pub dropouts: Vec<f32>,
     /// Allowed learning rates, ascending (a log-scale grid).
     pub learning_rates: Vec<f64>,
@@ -241,7 +242,7 @@ impl LayerSpace {
         Ok(())
     }
 
-    fn check_training(&self, t: &TrainGenes) -> Result<()> {
+    pub(crate) fn check_training(&self, t: &TrainGenes) -> Result<()> {
         if grid_index(&self.learning_rates, t.learning_rate).is_none() {
             return Err(Error::input(format!(
                 "training.learning_rate is {}, allowed values are {}",
