@@ -17,6 +17,7 @@ pub mod genome;
 pub mod net;
 pub mod render;
 pub mod search;
+pub mod stats;
 pub mod train;
 pub mod workflow;
 

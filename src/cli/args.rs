@@ -48,6 +48,11 @@ pub enum Command {
     /// Retrain the best candidate on train+validation and open the sealed test split once.
     #[command(after_help = "Example:\n  gemmule finalize runs/wine --top-k 3 --repeats 3")]
     Finalize(FinalizeArgs),
+    /// Run several strategies over several seeds with equal budgets and compare them.
+    #[command(
+        after_help = "Example:\n  gemmule compare --data wine.csv --out runs/wine-cmp --strategies evolution,random --seeds 5 --budget 60\n\nRunning the same command again continues an unfinished comparison."
+    )]
+    Compare(super::compare::CompareArgs),
 }
 
 /// Which data file and how to read and split it.

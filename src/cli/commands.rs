@@ -28,6 +28,7 @@ pub fn dispatch(command: Command, stop: &AtomicBool) -> Result<i32> {
         Command::Resume(a) => resume_command(a, stop),
         Command::Show(a) => show(&a.run, a.top),
         Command::Finalize(a) => finalize_command(a),
+        Command::Compare(a) => super::compare::compare_command(a, stop),
     }
 }
 

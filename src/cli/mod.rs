@@ -4,6 +4,7 @@
 
 mod args;
 mod commands;
+mod compare;
 mod progress;
 mod show;
 

@@ -11,6 +11,7 @@ mod csv_table;
 mod dataset;
 mod encode;
 mod header;
+pub mod image;
 mod labels;
 mod options;
 mod prepare;

@@ -96,7 +96,6 @@ struct PlanFile {
 
 impl ComparePlan {
     /// A plan over the given runs; reads the data file to fingerprint it.
-    #[allow(clippy::too_many_arguments)]
     pub fn new(
         source: DataSource,
         space: LayerSpace,

@@ -1,0 +1,325 @@
+//! `gemmule compare`: several strategies × several seeds with equal budgets,
+//! then a table (or JSON) of how they fared and whether evolution beat random search.
+
+use super::args::{DataArgs, SpaceArgs, StrategyArg};
+use super::progress::ProgressObserver;
+use super::EXIT_INTERRUPTED;
+use crate::evaluate::TrainerSettings;
+use crate::genome::LayerGenome;
+use crate::search::{SearchObserver, SearchOutcome};
+use crate::stats::{Summary, DEFAULT_RESAMPLES};
+use crate::train::Objective;
+use crate::workflow::{
+    ComparePlan, ComparedStrategy, Comparison, ComparisonEnding, ComparisonObserver,
+    ComparisonReport, PlannedRun, ReportOptions, RunState,
+};
+use crate::Error;
+use anyhow::Result;
+use clap::Args;
+use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
+
+/// Options of `gemmule compare`.
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    #[command(flatten)]
+    /// The data.
+    pub data: DataArgs,
+    /// Comparison directory: comparison.json plus one run directory per strategy and seed.
+    /// Running the same command again continues an unfinished comparison.
+    #[arg(long, value_name = "CMP")]
+    pub out: PathBuf,
+    /// Strategies to compare, comma-separated.
+    #[arg(
+        long,
+        value_enum,
+        value_name = "LIST",
+        value_delimiter = ',',
+        default_value = "evolution,random"
+    )]
+    pub strategies: Vec<StrategyArg>,
+    /// Seeds 1..=K for every strategy (default 5).
+    #[arg(long, value_name = "K", conflicts_with = "seed_list")]
+    pub seeds: Option<u64>,
+    /// Explicit seeds, comma-separated, instead of --seeds.
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    pub seed_list: Option<Vec<u64>>,
+    /// Evaluations (candidates trained) per run; every run gets the same.
+    #[arg(long, value_name = "N", default_value_t = 40)]
+    pub budget: u64,
+    /// Candidates each run trains at once (runs go one after another; default:
+    /// the recorded value when continuing, else available cores).
+    #[arg(long, value_name = "N")]
+    pub jobs: Option<usize>,
+    /// Most epochs per candidate.
+    #[arg(long, value_name = "N", default_value_t = 30)]
+    pub epochs: u32,
+    /// Epochs without a lower validation loss before a candidate stops (0: never).
+    #[arg(long, value_name = "N", default_value_t = 5)]
+    pub patience: u32,
+    /// Validation score that ranks candidates.
+    #[arg(long, value_enum, default_value_t = Objective::Accuracy)]
+    pub objective: Objective,
+    /// Candidates with more trainable parameters are recorded as over budget, not trained.
+    #[arg(long, value_name = "N")]
+    pub max_params: Option<u64>,
+    /// Candidates with more multiply-adds per example are recorded as over budget, not trained.
+    #[arg(long, value_name = "N")]
+    pub max_madds: Option<u64>,
+    #[command(flatten)]
+    /// The search space.
+    pub space: SpaceArgs,
+    /// Score to reach, on the objective's scale (log loss negated); default:
+    /// the median over all runs of the best score at the budget.
+    #[arg(long, value_name = "SCORE", allow_negative_numbers = true)]
+    pub target: Option<f64>,
+    /// Bootstrap resamples for the interval of the difference of medians.
+    #[arg(long, value_name = "B", default_value_t = DEFAULT_RESAMPLES)]
+    pub resamples: usize,
+    /// Seed of the bootstrap.
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub bootstrap_seed: u64,
+    /// Print the report as JSON on standard output.
+    #[arg(long)]
+    pub json: bool,
+    /// No progress bars or per-run lines.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Runs `gemmule compare`.
+pub fn compare_command(a: CompareArgs, stop: &AtomicBool) -> Result<i32> {
+    let plan = plan_from(&a)?;
+    let comparison = Comparison::open(&a.out, plan)?;
+    let mut observer = CliComparisonObserver::new(a.quiet);
+    let ending = comparison.run(&mut observer, stop);
+    observer.finish();
+    if ending? == ComparisonEnding::Stopped {
+        eprintln!(
+            "stopped; run the same command again to continue the comparison in {}",
+            a.out.display()
+        );
+        return Ok(EXIT_INTERRUPTED);
+    }
+    let options = ReportOptions {
+        target: a.target,
+        resamples: a.resamples,
+        bootstrap_seed: a.bootstrap_seed,
+    };
+    let report = comparison.report(&options)?;
+    if a.json {
+        let text = serde_json::to_string_pretty(&report)
+            .map_err(|e| Error::internal(format!("comparison report: {e}")))?;
+        println!("{text}");
+    } else {
+        print!("{}", render_report(&report, &comparison));
+    }
+    Ok(0)
+}
+
+fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
+    let seeds = match (&a.seed_list, a.seeds) {
+        (Some(list), _) => list.clone(),
+        (None, Some(0)) => return Err(Error::input("--seeds must be at least 1").into()),
+        (None, count) => (1..=count.unwrap_or(5)).collect(),
+    };
+    let strategies = a
+        .strategies
+        .iter()
+        .map(|s| match s {
+            StrategyArg::Evolution => ComparedStrategy::Evolution,
+            StrategyArg::Random => ComparedStrategy::Random,
+        })
+        .collect();
+    let jobs = match a.jobs {
+        Some(0) => return Err(Error::input("--jobs must be at least 1").into()),
+        Some(jobs) => jobs,
+        None => match ComparePlan::read(&a.out)? {
+            Some(recorded) => recorded.jobs,
+            None => std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1),
+        },
+    };
+    let trainer = TrainerSettings {
+        max_epochs: a.epochs,
+        patience: a.patience,
+        objective: a.objective,
+        max_params: a.max_params,
+        max_madds: a.max_madds,
+    };
+    Ok(ComparePlan::new(
+        a.data.source()?,
+        a.space.space()?,
+        trainer,
+        strategies,
+        seeds,
+        a.budget,
+        jobs,
+    )?)
+}
+
+/// Per-run lines and a progress bar per run, on standard error.
+struct CliComparisonObserver {
+    quiet: bool,
+    bar: ProgressObserver,
+}
+
+impl CliComparisonObserver {
+    fn new(quiet: bool) -> Self {
+        CliComparisonObserver {
+            quiet,
+            bar: ProgressObserver::new(true),
+        }
+    }
+
+    fn finish(self) {
+        self.bar.finish();
+    }
+}
+
+impl ComparisonObserver for CliComparisonObserver {
+    fn run_starting(&mut self, position: usize, total: usize, run: &PlannedRun, state: RunState) {
+        let fresh = ProgressObserver::new(self.quiet);
+        std::mem::replace(&mut self.bar, fresh).finish();
+        if !self.quiet {
+            let what = match state {
+                RunState::Unfinished(done) => format!("continuing after {done} evaluations"),
+                _ => "starting".to_string(),
+            };
+            eprintln!("run {position}/{total}: {}: {what}", run.dir_name);
+        }
+    }
+
+    fn search_observer(&mut self) -> &mut dyn SearchObserver<LayerGenome> {
+        &mut self.bar
+    }
+
+    fn run_skipped(&mut self, position: usize, total: usize, run: &PlannedRun) {
+        if !self.quiet {
+            eprintln!(
+                "run {position}/{total}: {}: finished before, kept",
+                run.dir_name
+            );
+        }
+    }
+
+    fn run_ended(&mut self, run: &PlannedRun, outcome: &SearchOutcome) {
+        let fresh = ProgressObserver::new(true);
+        std::mem::replace(&mut self.bar, fresh).finish();
+        if !self.quiet {
+            let best = outcome
+                .best
+                .map_or("none scored".to_string(), |(_, v)| format!("{v:.4}"));
+            eprintln!(
+                "    {}: {} evaluations, best {best}",
+                run.dir_name, outcome.evaluations
+            );
+        }
+    }
+}
+
+fn mean_sd(summary: &Summary) -> String {
+    match summary.sd {
+        Some(sd) => format!("{:.4} ± {sd:.4}", summary.mean),
+        None => format!("{:.4}", summary.mean),
+    }
+}
+
+/// The report as text tables.
+fn render_report(report: &ComparisonReport, comparison: &Comparison) -> String {
+    let plan = comparison.plan();
+    let objective = &report.objective;
+    let mut out = format!(
+        "comparison in {}: {} strategies × {} seeds, {} evaluations per run, objective {objective}\n",
+        comparison.dir().display(),
+        plan.strategies.len(),
+        plan.seeds.len(),
+        report.evaluations
+    );
+    out.push_str(&format!(
+        "\nbest validation {objective} at the budget (over seeds)\n{:<10} {:>4}  {:<17} {:>7} {:>7} {:>7}\n",
+        "strategy", "runs", "mean ± sd", "median", "min", "max"
+    ));
+    for s in &report.strategies {
+        let b = &s.best_at_budget;
+        out.push_str(&format!(
+            "{:<10} {:>4}  {:<17} {:>7.4} {:>7.4} {:>7.4}\n",
+            s.strategy.name(),
+            b.count,
+            mean_sd(b),
+            b.median,
+            b.min,
+            b.max
+        ));
+    }
+    let target_origin = if report.target_is_default {
+        "median best at the budget over all runs"
+    } else {
+        "--target"
+    };
+    out.push_str(&format!(
+        "\nsearch speed: evaluations to reach {:.4} ({target_origin}); area = mean best-so-far over evaluations 1..={}\n{:<10} {:>8} {:>14}  {:<17} {:>7}\n",
+        report.target, report.evaluations, "strategy", "reached", "median evals", "area mean ± sd", "median"
+    ));
+    for s in &report.strategies {
+        let r = &s.evaluations_to_target;
+        // Undefined when half the runs or more never reached the target.
+        let median = r
+            .median
+            .map_or(format!("> {}", report.evaluations), |m| format!("{m}"));
+        out.push_str(&format!(
+            "{:<10} {:>8} {:>14}  {:<17} {:>7.4}\n",
+            s.strategy.name(),
+            format!("{}/{}", r.reached, r.runs),
+            median,
+            mean_sd(&s.area_under_curve),
+            s.area_under_curve.median
+        ));
+    }
+    out.push_str(&format!(
+        "\ntest {objective} (first test opening of finalized runs)\n"
+    ));
+    if report.strategies.iter().all(|s| s.test_score.is_none()) {
+        out.push_str(&format!(
+            "  no run is finalized; `gemmule finalize {}/<run>` opens a run's test split\n",
+            comparison.dir().display()
+        ));
+    } else {
+        for s in &report.strategies {
+            let line = match &s.test_score {
+                Some(t) => format!(
+                    "{} finalized, {}, median {:.4}",
+                    t.count,
+                    mean_sd(t),
+                    t.median
+                ),
+                None => "none finalized".to_string(),
+            };
+            out.push_str(&format!("{:<10} {line}\n", s.strategy.name()));
+        }
+    }
+    if let Some(test) = &report.test {
+        let u = &test.mann_whitney;
+        let d = &test.median_difference;
+        let method = match u.method {
+            crate::stats::PValueMethod::Exact => "exact",
+            _ => "normal approximation",
+        };
+        out.push_str(&format!(
+            "\n{first} > {second}? one-sided Mann–Whitney U on the best {objective} at the budget\n  U = {:.1}, p = {:.4} ({method}, {} vs {} runs)\n  median difference {first} − {second}: {:.4}, bootstrap 95% interval [{:.4}, {:.4}] ({} resamples, seed {})\n",
+            u.u,
+            u.p_value,
+            u.first_count,
+            u.second_count,
+            d.estimate,
+            d.low,
+            d.high,
+            d.resamples,
+            d.seed,
+            first = test.first.name(),
+            second = test.second.name(),
+        ));
+    }
+    out
+}
