@@ -26,6 +26,12 @@ pub struct TrainerSettings {
     /// Candidates with more multiply-adds per sample are not trained ("over budget").
     #[serde(default)]
     pub max_madds: Option<u64>,
+    /// Compactness weight λ: when set, a scored candidate's `objective` is its
+    /// validation score − λ·log10(parameters) ([`penalised_objective`]), while
+    /// its `scores` stay the raw validation scores. Left out of the journal
+    /// header when unset, so runs without it read and resume as before.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub size_penalty: Option<f64>,
 }
 
 impl Default for TrainerSettings {
@@ -37,6 +43,7 @@ impl Default for TrainerSettings {
             objective: Objective::Accuracy,
             max_params: None,
             max_madds: None,
+            size_penalty: None,
         }
     }
 }
@@ -47,8 +54,21 @@ impl TrainerSettings {
         if self.max_epochs == 0 {
             return Err(crate::Error::input("epochs must be at least 1"));
         }
+        if let Some(lambda) = self.size_penalty {
+            if !(lambda.is_finite() && lambda >= 0.0) {
+                return Err(crate::Error::input(format!(
+                    "--size-penalty is {lambda}; give a finite number of 0 or more, such as 0.01"
+                )));
+            }
+        }
         Ok(())
     }
+}
+
+/// The compactness-penalised objective `score − lambda·log10(params)`; a
+/// count of 0 is taken as 1 (no penalty), so the value stays finite.
+pub fn penalised_objective(score: f64, params: u64, lambda: f64) -> f64 {
+    score - lambda * (params.max(1) as f64).log10()
 }
 
 /// All scores by name, as the journal stores them.
@@ -132,7 +152,11 @@ impl Evaluator<LayerGenome> for TrainingEvaluator {
                     .scores
                     .filter(|_| outcome.status != TrainStatus::Diverged)
                 {
-                    evaluation.objective = Some(self.settings.objective.value(&scores));
+                    let raw = self.settings.objective.value(&scores);
+                    evaluation.objective = Some(match self.settings.size_penalty {
+                        Some(lambda) => penalised_objective(raw, cost.params, lambda),
+                        None => raw,
+                    });
                     evaluation.scores = scores_map(&scores);
                 }
             }

@@ -16,6 +16,7 @@ pub mod fsio;
 pub mod genome;
 pub mod net;
 pub mod render;
+pub mod report;
 pub mod search;
 pub mod stats;
 pub mod train;

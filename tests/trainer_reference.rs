@@ -7,7 +7,9 @@
 use candle_core::{Device, Tensor};
 use gemmule::genome::{Activation, LayerGene, LayerGenome, Optimizer, TrainGenes};
 use gemmule::net::{parameter_specs, seeded_rng, Mlp};
-use gemmule::train::{adam_step, compute_gradients, AdamSettings, OptimizerState};
+use gemmule::train::{
+    adam_step, compute_gradients, AdamSettings, FastMlpLearner, Learner, OptimizerState,
+};
 use serde_json::Value;
 
 /// Fixture key → gemmule parameter name, in parameter order.
@@ -203,6 +205,57 @@ fn logits_loss_gradients_and_two_adam_steps_match_numpy_reference() {
         1e-5,
         1e-5,
     );
+}
+
+/// The fixture's weights as f32 tensors in parameter order.
+fn fixture_weights(fixture: &Value, key: &str) -> Vec<Vec<f32>> {
+    parameter_values(fixture, key)
+        .into_iter()
+        .map(|values| values.into_iter().map(|v| v as f32).collect())
+        .collect()
+}
+
+#[test]
+fn fast_learner_matches_numpy_reference_over_two_adam_steps() {
+    let fixture = fixture();
+    let weights = fixture_weights(&fixture, "params_0");
+    let mut learner = FastMlpLearner::new(&genome(), 4, 2, &weights).unwrap();
+    let x: Vec<f32> = flat(&fixture["inputs"]).iter().map(|&v| v as f32).collect();
+    let y: Vec<u32> = flat(&fixture["labels"]).iter().map(|&v| v as u32).collect();
+    for step in 0..2 {
+        // Source: mlp_fixture.json forward_{step}.logits and .mean_loss (NumPy float64).
+        let logits = learner.logits(&x, 3).unwrap();
+        let forward = &fixture[format!("forward_{step}")];
+        assert_close("logits", &logits, &flat(&forward["logits"]), 1e-5, 1e-5);
+        let (loss, gradients) = learner.gradients(&x, &y, 3, &mut seeded_rng(0, 0)).unwrap();
+        let want_loss = forward["mean_loss"].as_f64().unwrap();
+        assert_close("mean_loss", &[loss], &[want_loss], 1e-5, 1e-6);
+        // Source: mlp_fixture.json grads_{step} (checked there by finite differences).
+        for ((key, _), got) in PARAMETERS.iter().zip(&gradients) {
+            let want = flat(&fixture[format!("grads_{step}")][key]);
+            assert_close(&format!("grads_{step}.{key}"), got, &want, 1e-5, 1e-6);
+        }
+        let stepped = learner
+            .train_step(&x, &y, 3, &mut seeded_rng(0, 0))
+            .unwrap();
+        assert_eq!(stepped, loss);
+        // Source: mlp_fixture.json params_{step+1}, adam_m_{step+1}, adam_v_{step+1}.
+        let after = step + 1;
+        let params = learner.snapshot().unwrap().into_tensors();
+        for (index, ((key, _), got)) in PARAMETERS.iter().zip(&params).enumerate() {
+            let want = flat(&fixture[format!("params_{after}")][key]);
+            assert_close(&format!("params_{after}.{key}"), got, &want, 1e-6, 1e-6);
+            let (m, v) = learner.optimizer().adam_moments(index).unwrap();
+            let want_m = flat(&fixture[format!("adam_m_{after}")][key]);
+            assert_close(&format!("adam_m_{after}.{key}"), m, &want_m, 1e-5, 1e-8);
+            let want_v = flat(&fixture[format!("adam_v_{after}")][key]);
+            assert_close(&format!("adam_v_{after}.{key}"), v, &want_v, 1e-5, 1e-12);
+        }
+    }
+    // Source: mlp_fixture.json forward_2.logits (at the step-2 parameters).
+    let logits = learner.logits(&x, 3).unwrap();
+    let want = flat(&fixture["forward_2"]["logits"]);
+    assert_close("forward_2.logits", &logits, &want, 1e-5, 1e-5);
 }
 
 #[test]

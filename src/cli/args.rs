@@ -53,6 +53,11 @@ pub enum Command {
         after_help = "Example:\n  gemmule compare --data wine.csv --out runs/wine-cmp --strategies evolution,random --seeds 5 --budget 60\n\nRunning the same command again continues an unfinished comparison."
     )]
     Compare(super::compare::CompareArgs),
+    /// Write report.html, summary.json and candidates.csv for a run or comparison directory.
+    #[command(
+        after_help = "Examples:\n  gemmule report runs/wine\n  gemmule report runs/wine-cmp --out reports/wine"
+    )]
+    Report(super::report::ReportArgs),
 }
 
 /// Which data file and how to read and split it.
@@ -299,6 +304,10 @@ pub struct SearchArgs {
     /// Candidates with more multiply-adds per example are recorded as over budget, not trained.
     #[arg(long, value_name = "N")]
     pub max_madds: Option<u64>,
+    /// Prefer compact candidates: rank by validation score − λ·log10(parameters)
+    /// (the raw scores stay in the journal too).
+    #[arg(long, value_name = "LAMBDA")]
+    pub size_penalty: Option<f64>,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,
@@ -336,6 +345,18 @@ pub struct ShowArgs {
     /// Rows of the leaderboard.
     #[arg(long, value_name = "N", default_value_t = 10)]
     pub top: usize,
+    /// Draw the architecture of this evaluation (journal index) instead of the best.
+    #[arg(long, value_name = "INDEX")]
+    pub index: Option<u64>,
+    /// Draw with plain ASCII characters (the default when the locale is not UTF-8).
+    #[arg(long)]
+    pub ascii: bool,
+    /// Also write the drawn architecture as a Graphviz DOT file.
+    #[arg(long, value_name = "FILE.dot")]
+    pub dot: Option<PathBuf>,
+    /// Also write the drawn architecture as a standalone SVG file (no Graphviz needed).
+    #[arg(long, value_name = "FILE.svg")]
+    pub svg: Option<PathBuf>,
 }
 
 /// Options of `gemmule finalize`.

@@ -26,9 +26,10 @@ pub fn dispatch(command: Command, stop: &AtomicBool) -> Result<i32> {
         Command::Space(a) => space_command(a),
         Command::Search(a) => search_command(a, stop),
         Command::Resume(a) => resume_command(a, stop),
-        Command::Show(a) => show(&a.run, a.top),
+        Command::Show(a) => show(&a),
         Command::Finalize(a) => finalize_command(a),
         Command::Compare(a) => super::compare::compare_command(a, stop),
+        Command::Report(a) => super::report::report_command(a),
     }
 }
 
@@ -234,6 +235,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             objective: a.objective,
             max_params: a.max_params,
             max_madds: a.max_madds,
+            size_penalty: a.size_penalty,
         },
         seed: a.seed,
         jobs,

@@ -147,6 +147,7 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
         objective: a.objective,
         max_params: a.max_params,
         max_madds: a.max_madds,
+        size_penalty: None,
     };
     Ok(ComparePlan::new(
         a.data.source()?,

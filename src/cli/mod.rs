@@ -6,6 +6,7 @@ mod args;
 mod commands;
 mod compare;
 mod progress;
+mod report;
 mod show;
 
 pub use args::Cli;

@@ -243,7 +243,7 @@ fn repair_skips(layers: &mut [LayerGene]) {
 
 /// One step up or down from `pos` in a list of `len` values (the only way at an end).
 /// A value not on the list (`None`) moves to a uniformly drawn entry.
-fn step_index(pos: Option<usize>, len: usize, rng: &mut SeededRng) -> usize {
+pub(crate) fn step_index(pos: Option<usize>, len: usize, rng: &mut SeededRng) -> usize {
     match pos {
         None => rng.gen_range(0..len),
         Some(0) => 1.min(len - 1),
@@ -258,7 +258,8 @@ fn step_index(pos: Option<usize>, len: usize, rng: &mut SeededRng) -> usize {
     }
 }
 
-fn step_f64(grid: &[f64], value: f64, rng: &mut SeededRng) -> f64 {
+/// One step up or down `grid` from `value` (see [`step_index`]).
+pub(crate) fn step_f64(grid: &[f64], value: f64, rng: &mut SeededRng) -> f64 {
     grid[step_index(grid_index(grid, value), grid.len(), rng)]
 }
 

@@ -1,10 +1,19 @@
 //! Genome encodings and the search spaces they live in.
 
+mod cell;
+mod cell_mutation;
+mod cell_space;
 mod layer;
 mod layer_mutation;
 mod layer_space;
 mod space;
 
+pub use cell::{
+    Block, Cell, CellGenome, CellKind, CellOp, ConvOp, DenseOp, ImageCellGenome, Skeleton,
+    TableCellGenome, MAX_BLOCKS, MAX_CHANNELS, MAX_NORMAL_CELLS, MAX_REPEATS, STATE_H0, STATE_H1,
+};
+pub use cell_mutation::{CellMutation, CellMutationWeights};
+pub use cell_space::{CellSpace, ImageCellSpace, TableCellSpace};
 pub use layer::{
     sha256_hex, short_hash, Activation, LayerGene, LayerGenome, Optimizer, TrainGenes,
 };

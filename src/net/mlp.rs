@@ -8,7 +8,7 @@ use super::init::{initial_weights, InitScheme};
 use super::mlp_from_values::checked_specs;
 use super::seeded::seeded_rng;
 use crate::genome::LayerGenome;
-use crate::{Error, Result};
+use crate::Result;
 
 /// The seeded stream initial weights are drawn from.
 const INIT_STREAM: u64 = 0;
@@ -152,23 +152,6 @@ impl Mlp {
             n_inputs: self.n_inputs,
             n_classes: self.n_classes,
         }
-    }
-
-    /// The same architecture holding `tensors` (in [`parameter_specs`](crate::net::parameter_specs) order,
-    /// same shapes) instead of this network's parameters.
-    pub(crate) fn with_parameters(&self, tensors: Vec<Tensor>) -> Result<Mlp> {
-        if tensors.len() != 2 * self.hidden.len() + 2 {
-            return Err(Error::internal(
-                "parameter count does not match the network",
-            ));
-        }
-        let mut tensors = tensors.into_iter();
-        self.map_tensors(|old| match tensors.next() {
-            Some(new) if new.dims() == old.dims() => Ok(new),
-            _ => Err(Error::internal(
-                "parameter shape does not match the network",
-            )),
-        })
     }
 
     fn map_tensors(&self, mut f: impl FnMut(&Tensor) -> Result<Tensor>) -> Result<Mlp> {

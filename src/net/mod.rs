@@ -4,14 +4,23 @@
 //! built); [`Mlp`] is the built network the trainer updates.
 
 mod activation;
+mod cell_cost;
+mod cell_net;
 mod cost;
 mod dense;
 mod init;
 mod mlp;
 mod mlp_from_values;
+pub mod ops;
 mod param_spec;
 mod seeded;
 
+pub use cell_cost::{
+    cell_cost, image_cell_stages, table_cell_cost, table_cell_stages, CellStage, StateShape,
+};
+pub use cell_net::{
+    train_image_cells, train_table_cells, CellTrainOutcome, ImageCellNet, TableCellNet,
+};
 pub use cost::{layer_cost, Cost};
 pub use mlp::Mlp;
 pub use param_spec::{parameter_specs, ParameterSpec};

@@ -1,12 +1,10 @@
-//! Seeded row order and mini-batch tensors.
+//! Seeded row order and mini-batches.
 
-use candle_core::{Device, Tensor};
 use rand::seq::SliceRandom;
 
 use super::streams::shuffle_stream;
 use crate::data::Dataset;
 use crate::net::seeded_rng;
-use crate::Result;
 
 /// Mini-batches of a dataset in a seeded order, reusing its buffers.
 pub(crate) struct Batches<'a> {
@@ -41,20 +39,17 @@ impl<'a> Batches<'a> {
         self.order.len().div_ceil(batch_size.max(1))
     }
 
-    /// Batch `index` as (features rows × n_features f32, labels u32).
-    pub(crate) fn batch(&mut self, index: usize, batch_size: usize) -> Result<(Tensor, Tensor)> {
+    /// Batch `index` as (features, rows × n_features row-major; labels, one per row).
+    pub(crate) fn batch(&mut self, index: usize, batch_size: usize) -> (&[f32], &[u32]) {
         let batch_size = batch_size.max(1);
         let start = (index * batch_size).min(self.order.len());
         let end = (start + batch_size).min(self.order.len());
-        let rows = &self.order[start..end];
         self.x.clear();
         self.y.clear();
-        for &row in rows {
+        for &row in &self.order[start..end] {
             self.x.extend_from_slice(self.data.row(row));
             self.y.push(self.data.y[row]);
         }
-        let x = Tensor::from_slice(&self.x, (rows.len(), self.data.n_features), &Device::Cpu)?;
-        let y = Tensor::from_slice(&self.y, rows.len(), &Device::Cpu)?;
-        Ok((x, y))
+        (&self.x, &self.y)
     }
 }

@@ -4,11 +4,30 @@
 //! [`Objective`] rate predictions. The optimiser steps ([`adam_step`],
 //! [`sgd_momentum_step`]) and [`compute_gradients`] are public so tests and
 //! tools can check single steps against reference numbers.
+//!
+//! # Learners
+//! The epoch loop ([`fit`]: seeded shuffles, mini-batches, per-epoch dropout
+//! streams, validation loss, early stopping with best-weight restore,
+//! divergence, scores) is written once against the [`Learner`] trait:
+//! - [`FastMlpLearner`] trains layer-genome MLPs on preallocated buffers
+//!   with hand-written passes; [`train`] uses it.
+//! - [`AutogradLearner`] trains any candle network through autograd and the
+//!   same optimiser code. To train a new kind of network (conv, cells),
+//!   implement [`AutogradNetwork`] for it — `forward(&Tensor, train, rng)`,
+//!   its `Var`s and one weight-decay flag per `Var` — wrap it in
+//!   `AutogradLearner::new(network, &genes)` and call [`fit`]. Dropout and
+//!   other randomness must come from the `rng` passed to `forward` (the
+//!   epoch's seeded stream) so runs stay bit-identical.
 
 mod adam;
+mod autograd_learner;
 mod batches;
 mod evaluate;
+mod fast_mlp;
+mod fit;
 mod gradients;
+mod input_checks;
+mod learner;
 mod model;
 mod model_file;
 mod objective;
@@ -20,11 +39,15 @@ mod streams;
 mod trainer;
 
 pub use adam::{adam_step, AdamSettings};
+pub use autograd_learner::{AutogradLearner, AutogradNetwork};
+pub use fast_mlp::{matmul_row_major, FastMlpLearner, PhaseTimes};
+pub use fit::{fit, FitOutcome};
 pub use gradients::{compute_gradients, Gradients};
+pub use learner::{Learner, Snapshot};
 pub use model::TrainedModel;
 pub use objective::Objective;
 pub use optimizer::OptimizerState;
 pub use scores::{score, Scores};
 pub use settings::{TrainOutcome, TrainSettings, TrainStatus};
 pub use sgd::{sgd_momentum_step, SGD_MOMENTUM};
-pub use trainer::train;
+pub use trainer::{train, train_with_engine, TrainEngine};

@@ -38,15 +38,35 @@ pub struct OptimizerState {
 impl OptimizerState {
     /// Fresh state (zero moments, no steps) for parameters shaped like `specs`.
     pub fn new(genes: &TrainGenes, specs: &[ParameterSpec]) -> Self {
-        let slots = specs
-            .iter()
-            .map(|spec| Slot {
-                first: vec![0.0; spec.elem_count()],
+        let buffers = specs.iter().map(|spec| (spec.elem_count(), spec.is_weight));
+        Self::from_buffers(genes, buffers)
+    }
+
+    /// Fresh state for parameter buffers of `lengths` values; `decayed[i]`
+    /// says whether buffer `i` gets the genome's weight decay (weights do,
+    /// biases and normalisation parameters do not). For networks other
+    /// than [`crate::net::Mlp`]; the two slices must have the same length.
+    pub fn for_buffers(genes: &TrainGenes, lengths: &[usize], decayed: &[bool]) -> Result<Self> {
+        if lengths.len() != decayed.len() {
+            return Err(Error::internal(format!(
+                "{} buffer lengths but {} weight-decay flags",
+                lengths.len(),
+                decayed.len()
+            )));
+        }
+        let buffers = lengths.iter().copied().zip(decayed.iter().copied());
+        Ok(Self::from_buffers(genes, buffers))
+    }
+
+    fn from_buffers(genes: &TrainGenes, buffers: impl Iterator<Item = (usize, bool)>) -> Self {
+        let slots = buffers
+            .map(|(length, decayed)| Slot {
+                first: vec![0.0; length],
                 second: match genes.optimizer {
-                    Optimizer::Adam => vec![0.0; spec.elem_count()],
+                    Optimizer::Adam => vec![0.0; length],
                     Optimizer::SgdMomentum => Vec::new(),
                 },
-                l2: if spec.is_weight {
+                l2: if decayed {
                     genes.weight_decay as f32
                 } else {
                     0.0
@@ -104,6 +124,47 @@ impl OptimizerState {
                 slot: RefCell::new(slot),
             };
             parameter.inplace_op2(&gradient, &update)?;
+        }
+        Ok(())
+    }
+}
+
+impl OptimizerState {
+    /// Applies one step to parameters stored back to back in one flat
+    /// buffer (buffer `i` of the state right after buffer `i − 1`), with
+    /// `gradients` laid out the same way. Same arithmetic as [`Self::step`].
+    pub fn step_flat(&mut self, parameters: &mut [f32], gradients: &[f32]) -> Result<()> {
+        let total: usize = self.slots.iter().map(|slot| slot.first.len()).sum();
+        if parameters.len() != total || gradients.len() != total {
+            return Err(Error::internal(format!(
+                "optimiser holds {total} values but got {} parameters and {} gradients",
+                parameters.len(),
+                gradients.len()
+            )));
+        }
+        self.steps += 1;
+        let mut parameters = parameters;
+        let mut gradients = gradients;
+        for slot in &mut self.slots {
+            let length = slot.first.len();
+            let (theta, rest) = std::mem::take(&mut parameters).split_at_mut(length);
+            let (grad, grad_rest) = gradients.split_at(length);
+            parameters = rest;
+            gradients = grad_rest;
+            match self.kind {
+                Optimizer::Adam => adam_step(
+                    theta,
+                    grad,
+                    &mut slot.first,
+                    &mut slot.second,
+                    self.steps,
+                    &self.adam,
+                    slot.l2,
+                )?,
+                Optimizer::SgdMomentum => {
+                    sgd_momentum_step(theta, grad, &mut slot.first, self.learning_rate, slot.l2)?
+                }
+            }
         }
         Ok(())
     }

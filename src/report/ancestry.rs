@@ -1,0 +1,112 @@
+//! The candidates a report singles out: the best one (over every run), its
+//! lineage, and the Pareto-optimal ones pooled over every run.
+
+use super::input::ReportRun;
+use crate::render::{lineage, pareto_front, LineageStep};
+use crate::search::{compare_objectives, EvaluationRecord};
+use serde::Serialize;
+use serde_json::Value;
+
+/// A candidate located in its run.
+#[derive(Debug, Clone, Copy)]
+pub struct Located<'a> {
+    /// Position of the run in the report's run list.
+    pub run: usize,
+    /// The evaluation record.
+    pub record: &'a EvaluationRecord<Value>,
+}
+
+/// A Pareto-optimal candidate (most objective for its parameter count).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FrontMember {
+    /// The run's name.
+    pub run: String,
+    /// The run's strategy.
+    pub strategy: String,
+    /// Journal index in that run.
+    pub index: u64,
+    /// Genome id.
+    pub id: String,
+    /// Trainable parameters.
+    pub params: u64,
+    /// Multiply-adds per example, when known.
+    pub madds: Option<u64>,
+    /// Validation objective.
+    pub objective: f64,
+}
+
+/// The best candidate over all runs: the highest objective; ties go to the
+/// earlier run, then to the earlier evaluation. `None` when nothing is scored.
+pub fn best_candidate(runs: &[ReportRun]) -> Option<Located<'_>> {
+    let mut best: Option<Located<'_>> = None;
+    for (position, run) in runs.iter().enumerate() {
+        for record in &run.journal.evaluations {
+            let better = match &best {
+                None => record.objective.is_some(),
+                Some(current) => {
+                    compare_objectives(record.objective, current.record.objective).is_gt()
+                }
+            };
+            if better {
+                best = Some(Located {
+                    run: position,
+                    record,
+                });
+            }
+        }
+    }
+    best
+}
+
+/// The lineage of `candidate` inside its run, first ancestor first.
+pub fn lineage_of(runs: &[ReportRun], candidate: Located<'_>) -> Vec<LineageStep> {
+    runs.get(candidate.run)
+        .map(|run| lineage(&run.journal.evaluations, candidate.record.index))
+        .unwrap_or_default()
+}
+
+/// The Pareto front over every run's candidates together (fewest parameters
+/// first): a candidate is on it when no candidate of any run has at least
+/// its objective with at most its parameters, one of them strictly.
+pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
+    let mut owners = Vec::new();
+    let mut pooled: Vec<EvaluationRecord<()>> = Vec::new();
+    for (position, run) in runs.iter().enumerate() {
+        for record in &run.journal.evaluations {
+            owners.push((position, record));
+            pooled.push(EvaluationRecord {
+                index: pooled.len() as u64,
+                id: String::new(),
+                genome: (),
+                parent: None,
+                parent_id: None,
+                mutation: None,
+                seed: record.seed,
+                status: record.status,
+                objective: record.objective,
+                scores: Default::default(),
+                params: record.params,
+                madds: record.madds,
+                epochs: record.epochs,
+                best_epoch: record.best_epoch,
+                message: None,
+            });
+        }
+    }
+    pareto_front(&pooled)
+        .into_iter()
+        .filter_map(|pooled_index| {
+            let &(position, record) = owners.get(usize::try_from(pooled_index).ok()?)?;
+            let run = &runs[position];
+            Some(FrontMember {
+                run: run.name.clone(),
+                strategy: run.strategy.clone(),
+                index: record.index,
+                id: record.id.clone(),
+                params: record.params?,
+                madds: record.madds,
+                objective: record.objective?,
+            })
+        })
+        .collect()
+}

@@ -1,0 +1,155 @@
+//! The epoch loop, written once for every [`Learner`].
+
+use super::batches::Batches;
+use super::evaluate::{mean_cross_entropy, softmax_rows};
+use super::input_checks::check_inputs;
+use super::learner::{Learner, Snapshot};
+use super::scores::{score, Scores};
+use super::settings::{TrainSettings, TrainStatus};
+use super::streams::dropout_stream;
+use crate::data::Dataset;
+use crate::net::seeded_rng;
+use crate::Result;
+
+/// Rows per forward pass when computing validation logits.
+const EVAL_CHUNK_ROWS: usize = 1024;
+
+/// What [`fit`] reports; the learner itself holds the resulting weights.
+#[derive(Clone, Debug, PartialEq)]
+pub struct FitOutcome {
+    /// How the run ended.
+    pub status: TrainStatus,
+    /// Validation scores of the weights the learner holds at the end;
+    /// `None` without validation data or when training diverged.
+    pub scores: Option<Scores>,
+    /// Epochs started (an epoch cut short by divergence counts).
+    pub epochs_run: u32,
+    /// 1-based epoch whose weights the learner holds (see
+    /// [`TrainOutcome::best_epoch`](super::TrainOutcome::best_epoch)).
+    pub best_epoch: u32,
+    /// Mean training-batch loss of each completed epoch, in order.
+    pub epoch_losses: Vec<f64>,
+}
+
+/// The best epoch so far by validation loss, with its weights.
+struct BestEpoch {
+    epoch: u32,
+    loss: f64,
+    weights: Snapshot,
+}
+
+/// Trains `learner` on `train` for up to `settings.max_epochs` epochs of
+/// mini-batches of `batch_size` rows (the last one may be smaller).
+///
+/// Each epoch visits the rows in a seeded order drawn from the seed and the
+/// epoch number and draws dropout masks from the epoch's own stream, so an
+/// epoch's randomness depends only on the seed and the epoch number. After
+/// each epoch the validation loss (mean cross-entropy) is computed; after
+/// `patience` epochs without a lower one training stops early. When
+/// validation data is given the learner ends holding the weights of the best
+/// epoch. A NaN or infinite batch loss, weight or validation loss stops
+/// training with [`TrainStatus::Diverged`] (never an error).
+///
+/// Errors: [`Error::Input`](crate::Error::Input) for `max_epochs` 0, an
+/// empty set, or data whose sizes disagree with each other or the learner.
+pub fn fit(
+    learner: &mut dyn Learner,
+    train: &Dataset,
+    valid: Option<&Dataset>,
+    settings: &TrainSettings,
+    batch_size: usize,
+) -> Result<FitOutcome> {
+    check_inputs(
+        train,
+        valid,
+        settings,
+        learner.n_inputs(),
+        learner.n_classes(),
+    )?;
+    let mut batches = Batches::new(train);
+    let mut status = TrainStatus::Completed;
+    let mut epochs_run = 0;
+    let mut best: Option<BestEpoch> = None;
+    let mut epochs_without_improvement = 0;
+    let mut epoch_losses = Vec::new();
+    for epoch in 1..=settings.max_epochs {
+        epochs_run = epoch;
+        batches.shuffle(settings.seed, epoch);
+        let mut dropout_rng = seeded_rng(settings.seed, dropout_stream(epoch));
+        let mut loss_sum = 0.0f64;
+        let mut losses_finite = true;
+        for index in 0..batches.count(batch_size) {
+            let (x, y) = batches.batch(index, batch_size);
+            let loss = learner.train_step(x, y, y.len(), &mut dropout_rng)?;
+            if !loss.is_finite() {
+                losses_finite = false;
+                break;
+            }
+            loss_sum += f64::from(loss) * y.len() as f64;
+        }
+        if !losses_finite || !learner.all_finite()? {
+            status = TrainStatus::Diverged;
+            break;
+        }
+        epoch_losses.push(loss_sum / train.len() as f64);
+        let Some(valid) = valid else { continue };
+        let loss = validation_loss(learner, valid)?;
+        if !loss.is_finite() {
+            status = TrainStatus::Diverged;
+            break;
+        }
+        if best.as_ref().is_none_or(|b| loss < b.loss) {
+            let weights = learner.snapshot()?;
+            best = Some(BestEpoch {
+                epoch,
+                loss,
+                weights,
+            });
+            epochs_without_improvement = 0;
+        } else {
+            epochs_without_improvement += 1;
+            if settings.patience > 0 && epochs_without_improvement >= settings.patience {
+                status = TrainStatus::EarlyStopped;
+                break;
+            }
+        }
+    }
+
+    let best_epoch = match (best, valid) {
+        (Some(best), _) => {
+            learner.restore(&best.weights)?;
+            best.epoch
+        }
+        (None, Some(_)) => 0,
+        (None, None) => epochs_run,
+    };
+    let scores = match (valid, status) {
+        (Some(valid), TrainStatus::Completed | TrainStatus::EarlyStopped) => {
+            let mut probabilities = logits_in_chunks(learner, valid)?;
+            softmax_rows(&mut probabilities, valid.n_classes);
+            Some(score(&probabilities, &valid.y, valid.n_classes))
+        }
+        _ => None,
+    };
+    Ok(FitOutcome {
+        status,
+        scores,
+        epochs_run,
+        best_epoch,
+        epoch_losses,
+    })
+}
+
+fn validation_loss(learner: &mut dyn Learner, valid: &Dataset) -> Result<f64> {
+    let logits = logits_in_chunks(learner, valid)?;
+    Ok(mean_cross_entropy(&logits, &valid.y, valid.n_classes))
+}
+
+fn logits_in_chunks(learner: &mut dyn Learner, data: &Dataset) -> Result<Vec<f32>> {
+    let mut logits = Vec::with_capacity(data.len() * data.n_classes);
+    for chunk in data.x.chunks(EVAL_CHUNK_ROWS * data.n_features) {
+        let rows = chunk.len() / data.n_features;
+        logits.extend(learner.logits(chunk, rows)?);
+    }
+    Ok(logits)
+}
