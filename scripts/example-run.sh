@@ -19,3 +19,6 @@ echo "== final evaluation on the sealed test split"
 if ! "$bin" finalize "$run"; then
   echo "(the test split of $run was opened before; pass a new folder to start over)"
 fi
+echo "== report"
+"$bin" report "$run"
+echo "open $run/report.html in a browser"

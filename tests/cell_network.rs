@@ -198,7 +198,7 @@ fn outputs_have_one_logit_per_class() {
     assert_eq!(logits.dims(), &[5, 3]);
     let wrong = net.logits(&input(5, 12, 2), false);
     assert!(matches!(wrong, Err(gemmule::Error::Input(_))));
-    let _ = AutogradNetwork::n_inputs(&net);
+    assert_eq!(AutogradNetwork::n_inputs(&net), 13);
 }
 
 // ------------------------------------------------------------ determinism

@@ -196,3 +196,26 @@ fn fast_learner_rejects_bad_batches_and_weights() {
     weights[2].pop();
     assert!(FastMlpLearner::new(&genome, N_INPUTS, N_CLASSES, &weights).is_err());
 }
+
+#[test]
+fn no_hidden_layer_and_batches_larger_than_the_data_agree_with_autograd() {
+    let data = random_data(13, 8);
+    let mut genome = genome(Activation::Relu, false, 0.0, Optimizer::SgdMomentum);
+    genome.layers.clear();
+    genome.training.batch_size = 64;
+    let settings = TrainSettings {
+        max_epochs: 4,
+        patience: 0,
+        seed: 9,
+    };
+    let run = |engine| train_with_engine(&genome, &data, Some(&data), &settings, engine).unwrap();
+    let (fast, autograd) = (run(TrainEngine::Fast), run(TrainEngine::Autograd));
+    assert_eq!(fast.status, TrainStatus::Completed);
+    let (got, want) = (
+        fast.model.weights().unwrap(),
+        autograd.model.weights().unwrap(),
+    );
+    for (index, (got, want)) in got.iter().zip(&want).enumerate() {
+        assert_close(&format!("tensor {index}"), got, want, 1e-5);
+    }
+}

@@ -6,7 +6,7 @@
 //! any run (sorted by name), then `params, madds, epochs, seconds`.
 
 use super::input::ReportRun;
-use super::summary::status_name;
+use super::summary_build::status_name;
 use super::timeline::seconds_by_index;
 use crate::{Error, Result};
 use std::collections::BTreeSet;

@@ -20,6 +20,7 @@ mod plot_frame;
 mod plot_progress;
 mod settings_check;
 mod summary;
+mod summary_build;
 mod timeline;
 
 pub use ancestry::FrontMember;

@@ -69,6 +69,11 @@ impl BlockGroup {
         })
     }
 
+    /// The width of the widest block (the first).
+    fn widest(g: &ConvGeometry) -> usize {
+        BlockGroup::all(g).next().map_or(0, |block| block.width(g))
+    }
+
     /// Columns of the block's matrices: images · H_out · W_out.
     fn width(&self, g: &ConvGeometry) -> usize {
         self.images * g.out_plane()
@@ -127,16 +132,18 @@ impl CustomOp2 for Conv2dIm2col {
         let w = contiguous_f32(w_storage, w_layout, w_len, self.name())?;
         let plane = g.out_plane();
         let mut output = vec![0.0f32; out_len];
-        let (mut columns, mut product) = (scratch::take(0), scratch::take(0));
+        let widest = BlockGroup::widest(g);
+        let mut column_buffer = scratch::take(g.patch_len() * widest);
+        let mut product_buffer = scratch::take(g.group_out() * widest);
         for block in BlockGroup::all(g) {
             let width = block.width(g);
-            columns.resize(g.patch_len() * width, 0.0);
-            product.resize(g.group_out() * width, 0.0);
-            block.unfold(g, x, &mut columns);
+            let columns = &mut column_buffer[..g.patch_len() * width];
+            let product = &mut product_buffer[..g.group_out() * width];
+            block.unfold(g, x, columns);
             matmul_into(
-                MatrixViewMut::row_major(&mut product, g.group_out(), width),
+                MatrixViewMut::row_major(product, g.group_out(), width),
                 block.weights(g, w),
-                MatrixView::row_major(&columns, g.patch_len(), width),
+                MatrixView::row_major(columns, g.patch_len(), width),
                 false,
             )
             .map_err(to_candle)?;
@@ -147,8 +154,8 @@ impl CustomOp2 for Conv2dIm2col {
                 }
             }
         }
-        scratch::recycle(columns);
-        scratch::recycle(product);
+        scratch::recycle(column_buffer);
+        scratch::recycle(product_buffer);
         let shape = (g.batch, g.out_channels, g.out_h, g.out_w);
         Ok((CpuStorage::F32(output), Shape::from(shape)))
     }
@@ -196,23 +203,24 @@ impl CustomOp3 for Conv2dIm2colGrad {
         // grad_x first, then grad_w, in one vector.
         let mut packed = vec![0.0f32; x_len + w_len];
         let (grad_x, grad_w) = packed.split_at_mut(x_len);
-        let mut columns = scratch::take(0);
-        let mut grad_columns = scratch::take(0);
-        let mut grad_block = scratch::take(0);
+        let widest = BlockGroup::widest(g);
+        let mut column_buffer = scratch::take(patch * widest);
+        let mut grad_column_buffer = scratch::take(patch * widest);
+        let mut grad_block_buffer = scratch::take(g.group_out() * widest);
         let mut weight_grads_started = vec![false; g.groups];
         for block in BlockGroup::all(g) {
             let width = block.width(g);
-            columns.resize(patch * width, 0.0);
-            grad_columns.resize(patch * width, 0.0);
-            grad_block.resize(g.group_out() * width, 0.0);
-            block.unfold(g, x, &mut columns);
+            let columns = &mut column_buffer[..patch * width];
+            let grad_columns = &mut grad_column_buffer[..patch * width];
+            let grad_block = &mut grad_block_buffer[..g.group_out() * width];
+            block.unfold(g, x, columns);
             for (c, row) in grad_block.chunks_exact_mut(width).enumerate() {
                 for (b, image_row) in row.chunks_exact_mut(plane).enumerate() {
                     let start = block.output_start(g, b, c);
                     image_row.copy_from_slice(&grad[start..start + plane]);
                 }
             }
-            let grads = MatrixView::row_major(&grad_block, g.group_out(), width);
+            let grads = MatrixView::row_major(grad_block, g.group_out(), width);
             // grad_W (group_out × patch) += grad (group_out × width) · columnsᵀ (width × patch)
             let group_size = g.group_out() * patch;
             let started = &mut weight_grads_started[block.group];
@@ -223,14 +231,14 @@ impl CustomOp3 for Conv2dIm2colGrad {
                     patch,
                 ),
                 grads,
-                MatrixView::row_major(&columns, patch, width).transposed(),
+                MatrixView::row_major(columns, patch, width).transposed(),
                 *started,
             )
             .map_err(to_candle)?;
             *started = true;
             // grad_columns (patch × width) = Wᵀ (patch × group_out) · grad (group_out × width)
             matmul_into(
-                MatrixViewMut::row_major(&mut grad_columns, patch, width),
+                MatrixViewMut::row_major(grad_columns, patch, width),
                 block.weights(g, w).transposed(),
                 grads,
                 false,
@@ -239,10 +247,10 @@ impl CustomOp3 for Conv2dIm2colGrad {
             let group_len = g.group_in() * g.in_plane();
             for b in 0..block.images {
                 let image = &mut grad_x[block.input_start(g, b)..][..group_len];
-                col2im_add(g, &grad_columns[b * plane..], width, image);
+                col2im_add(g, &mut grad_columns[b * plane..], width, image);
             }
         }
-        for buffer in [columns, grad_columns, grad_block] {
+        for buffer in [column_buffer, grad_column_buffer, grad_block_buffer] {
             scratch::recycle(buffer);
         }
         Ok((CpuStorage::F32(packed), Shape::from(x_len + w_len)))

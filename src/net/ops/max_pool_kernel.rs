@@ -2,7 +2,9 @@
 //! which routes each output gradient to the first largest in-image cell of
 //! its window (row-major order, as PyTorch's CPU kernel scans). Both
 //! passes are separable: maxima along rows first, then across the window's
-//! rows; the forward keeps values only, the backward recomputes the argmax.
+//! rows; the forward keeps values only, the backward recomputes the argmax
+//! by comparing with the maxima (selects rather than branches: with random
+//! data a branch per comparison mispredicted half the time).
 //!
 //! Timings: see the `ops` module documentation.
 
@@ -29,66 +31,82 @@ struct MaxPool3x3Grad {
     geometry: PoolGeometry,
 }
 
-/// Reusable scratch of the backward's row pass: the first maximum of each
-/// (input row, output column) window and its column.
-struct RowMaxima {
-    values: Vec<f32>,
-    cols: Vec<usize>,
+/// The neighbours `centre − 1`, `centre`, `centre + 1` of an axis of `len`
+/// cells, a missing one replaced by `centre` (a repeated candidate does not
+/// change which one comes first).
+fn neighbours(centre: usize, len: usize) -> [usize; 3] {
+    [centre.saturating_sub(1), centre, (centre + 1).min(len - 1)]
 }
 
-/// Index of the first maximum among in-image neighbours `centre − 1`,
-/// `centre`, `centre + 1` of `cells` (an earlier cell wins ties, so the
-/// earlier neighbour needs ≥ and the later one >). Written with selects
-/// rather than unpredictable branches.
-fn first_max(cells: impl Fn(usize) -> f32, centre: usize, len: usize) -> (f32, usize) {
-    let (mut best, mut index) = (cells(centre), centre);
-    if centre >= 1 {
-        let before = cells(centre - 1);
-        let wins = before >= best;
-        best = if wins { before } else { best };
-        index = if wins { centre - 1 } else { index };
+/// The first of `candidates` whose value equals `best`, chosen with selects
+/// (no unpredictable branches); the last candidate when none does (NaN).
+fn first_equal(candidates: [usize; 3], value: impl Fn(usize) -> f32, best: f32) -> usize {
+    let [first, second, third] = candidates;
+    let mut chosen = third;
+    chosen = if value(second) == best {
+        second
+    } else {
+        chosen
+    };
+    if value(first) == best {
+        first
+    } else {
+        chosen
     }
-    if centre + 1 < len {
-        let after = cells(centre + 1);
-        let wins = after > best;
-        best = if wins { after } else { best };
-        index = if wins { centre + 1 } else { index };
-    }
-    (best, index)
 }
 
-impl RowMaxima {
+/// Reusable per-plane scratch of the backward: the row-window maxima, the
+/// column of each, and one output row of window maxima.
+struct ArgmaxScratch {
+    row_maxima: Vec<f32>,
+    row_argmax: Vec<usize>,
+    window_maxima: Vec<f32>,
+}
+
+impl ArgmaxScratch {
     fn new(g: &PoolGeometry) -> Self {
         Self {
-            values: vec![0.0; g.in_h() * g.out_w],
-            cols: vec![0; g.in_h() * g.out_w],
+            row_maxima: vec![0.0; g.in_h() * g.out_w],
+            row_argmax: vec![0; g.in_h() * g.out_w],
+            window_maxima: vec![0.0; g.out_w],
         }
     }
 
     /// Calls `visit(output index, input index of the window's first maximum)`
-    /// for every output of `plane`: row-major first, as PyTorch's CPU kernel
-    /// scans (first along rows, then across them, earlier winning ties).
+    /// for every output of `plane`, "first" in row-major order as PyTorch's
+    /// CPU kernel scans: the earliest row holding the window maximum, and in
+    /// it the earliest column.
     fn for_each_argmax(
         &mut self,
         g: &PoolGeometry,
         plane: &[f32],
         mut visit: impl FnMut(usize, usize),
     ) {
-        let (width, out_w) = (g.in_w(), g.out_w);
-        let rows_out = self
-            .values
-            .chunks_exact_mut(out_w)
-            .zip(self.cols.chunks_exact_mut(out_w));
-        for (row, (values, cols)) in plane.chunks_exact(width).zip(rows_out) {
-            for (oj, (value, col)) in values.iter_mut().zip(cols.iter_mut()).enumerate() {
-                (*value, *col) = first_max(|c| row[c], oj * g.stride, width);
+        let (h, w, out_w) = (g.in_h(), g.in_w(), g.out_w);
+        let rows = plane.chunks_exact(w);
+        let scratch = self.row_maxima.chunks_exact_mut(out_w);
+        for ((row, maxima), argmax) in rows
+            .zip(scratch)
+            .zip(self.row_argmax.chunks_exact_mut(out_w))
+        {
+            row_windows(row, maxima, g.stride, f32::max);
+            for (oj, (best, col)) in maxima.iter().zip(argmax.iter_mut()).enumerate() {
+                *col = first_equal(neighbours(oj * g.stride, w), |c| row[c], *best);
             }
         }
         for oi in 0..g.out_h {
-            for oj in 0..out_w {
-                let cell = |r: usize| self.values[r * out_w + oj];
-                let (_, r) = first_max(cell, oi * g.stride, g.in_h());
-                visit(oi * out_w + oj, r * width + self.cols[r * out_w + oj]);
+            column_windows(
+                &self.row_maxima,
+                out_w,
+                &mut self.window_maxima,
+                oi,
+                g.stride,
+                f32::max,
+            );
+            let candidates = neighbours(oi * g.stride, h);
+            for (oj, best) in self.window_maxima.iter().enumerate() {
+                let r = first_equal(candidates, |r| self.row_maxima[r * out_w + oj], *best);
+                visit(oi * out_w + oj, r * w + self.row_argmax[r * out_w + oj]);
             }
         }
     }
@@ -152,7 +170,7 @@ impl CustomOp2 for MaxPool3x3Grad {
         let grad_len = g.planes() * g.out_plane();
         let grad = contiguous_f32(grad_storage, grad_layout, grad_len, self.name())?;
         let mut grad_x = vec![0.0f32; x.len()];
-        let mut scratch = RowMaxima::new(g);
+        let mut scratch = ArgmaxScratch::new(g);
         let planes = x
             .chunks_exact(g.in_plane())
             .zip(grad.chunks_exact(g.out_plane()));

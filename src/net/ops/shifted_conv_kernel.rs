@@ -141,6 +141,8 @@ impl CustomOp2 for ShiftedConv2d {
         let output = taps
             .grid
             .extract(&out_grid, g.out_channels, g.out_h, g.out_w, 0);
+        scratch::recycle(x_grid);
+        scratch::recycle(out_grid);
         let shape = (g.batch, g.out_channels, g.out_h, g.out_w);
         Ok((CpuStorage::F32(output), Shape::from(shape)))
     }

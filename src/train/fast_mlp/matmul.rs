@@ -131,8 +131,9 @@ pub(crate) fn matmul_into(
 }
 
 /// `dst ← lhs·rhs` for row-major `lhs` (m × k), `rhs` (k × n) and `dst`
-/// (m × n), on the calling thread, with the kernels [`FastMlpLearner`] uses.
-/// For benchmarks and tools; a size mismatch is an internal error.
+/// (m × n), on the calling thread, with the kernels
+/// [`FastMlpLearner`](super::FastMlpLearner) uses. For benchmarks and
+/// tools; a size mismatch is an internal error.
 pub fn matmul_row_major(
     dst: &mut [f32],
     lhs: &[f32],
