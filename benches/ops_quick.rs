@@ -1,7 +1,7 @@
 //! Quick single-thread timings of the convolutional ops (`gemmule::net::ops`)
 //! and each of their kernels against the reference implementations: forward
-//! + backward (of the output's sum) on a 64×16×8×8 input, median thread CPU
-//! time of interleaved runs. Run with `cargo bench --bench ops_quick [-- filter]`.
+//! and backward (of the output's sum) on a 64×16×8×8 input, median thread
+//! CPU time of interleaved runs. Run with `cargo bench --bench ops_quick [-- filter]`.
 
 use candle_core::{Device, Tensor, Var};
 use gemmule::net::ops::{self, kernels, reference, BatchNorm2d};
@@ -135,14 +135,8 @@ fn time_convs(rng: &mut ChaCha8Rng, x: &Tensor) -> Result<()> {
             ("ops::conv2d", ops::conv2d),
             ("im2col", kernels::conv2d_im2col),
         ];
-        if stride == 1 && groups == 1 {
-            entries.push(("shifted taps", kernels::conv2d_shifted_taps));
-        }
         if groups == 16 {
             entries.push(("depthwise direct", kernels::depthwise_direct));
-        }
-        if groups == 16 && stride == 1 {
-            entries.push(("depthwise shifted taps", kernels::depthwise_shifted_taps));
         }
         let candidates = entries
             .into_iter()
@@ -216,9 +210,19 @@ fn time_batch_norm(rng: &mut ChaCha8Rng, x: &Tensor) -> Result<()> {
     )
 }
 
+/// Image side: 8, or `OPS_QUICK_SIDE` from the environment (to see how the
+/// kernels scale; the recorded numbers use 8).
+fn image_side() -> usize {
+    std::env::var("OPS_QUICK_SIDE")
+        .ok()
+        .and_then(|side| side.parse().ok())
+        .unwrap_or(8)
+}
+
 fn run() -> Result<()> {
     let mut rng = ChaCha8Rng::seed_from_u64(1);
-    let x = random_var(&mut rng, &[64, 16, 8, 8])?;
+    let side = image_side();
+    let x = random_var(&mut rng, &[64, 16, side, side])?;
     time_convs(&mut rng, x.as_tensor())?;
     time_pools(x.as_tensor())?;
     time_batch_norm(&mut rng, x.as_tensor())

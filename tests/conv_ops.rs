@@ -54,7 +54,7 @@ fn pool_gradients_match_finite_differences() {
         let x = var(&well_separated(&mut rng(10 + stride as u64), &[2, 2, 5, 5]));
         let xc = x.clone();
         check_gradients(
-            &[x.clone()],
+            std::slice::from_ref(&x),
             || ops::max_pool3x3(&xc, stride).expect("max pool"),
             &format!("max pool stride {stride}"),
         );
@@ -338,26 +338,15 @@ fn assert_same(
 type ConvFn = fn(&Tensor, &Tensor, usize, usize, usize, usize) -> gemmule::Result<Tensor>;
 
 /// The dispatching `ops::conv2d` and every kernel that handles a convolution
-/// with this stride, groups and channel counts.
-fn conv_kernels(
-    stride: usize,
-    groups: usize,
-    c_in: usize,
-    c_out: usize,
-) -> Vec<(&'static str, ConvFn)> {
+/// with these groups and channel counts.
+fn conv_kernels(groups: usize, c_in: usize, c_out: usize) -> Vec<(&'static str, ConvFn)> {
     let depthwise = groups > 1 && groups == c_in && groups == c_out;
     let mut found: Vec<(&'static str, ConvFn)> = vec![
         ("ops::conv2d", ops::conv2d),
         ("im2col", kernels::conv2d_im2col),
     ];
-    if stride == 1 && groups == 1 {
-        found.push(("shifted taps", kernels::conv2d_shifted_taps));
-    }
     if depthwise {
         found.push(("depthwise direct", kernels::depthwise_direct));
-    }
-    if depthwise && stride == 1 {
-        found.push(("depthwise shifted taps", kernels::depthwise_shifted_taps));
     }
     found
 }
@@ -388,7 +377,7 @@ fn fast_conv2d_matches_reference() {
                 reference::conv2d(&t[0], &t[1], stride, padding, dilation, groups)
                     .expect("reference")
             };
-            for (name, kernel) in conv_kernels(stride, groups, c_in, c_out) {
+            for (name, kernel) in conv_kernels(groups, c_in, c_out) {
                 assert_same(
                     &inputs,
                     &|t| kernel(&t[0], &t[1], stride, padding, dilation, groups).expect(name),

@@ -3,7 +3,11 @@
 //! output gradient evenly over its window's in-image cells. Separable: sums
 //! along rows first, then across the window's rows.
 //!
-//! Timings: see the `ops` module documentation.
+//! Measured by benches/ops_quick.rs (thread CPU time, median of 15, one thread, forward +
+//! backward of the output's sum on a 64×16×8×8 input, on a shared 2-core machine under load ~3.6,
+//! so ±30%): µs, this kernel vs step 1
+//! (zero padding + sum of 9 strided index_selects ÷ counts): stride 1: 510 vs 11,000;
+//! stride 2: 320 vs 2,250.
 
 use candle_core::{CpuStorage, CustomOp1, Layout, Shape, Tensor};
 

@@ -5,7 +5,10 @@
 //! dx = gamma·inv_std·(dy − mean(dy) − x̂·mean(dy·x̂)); with fixed
 //! statistics (eval) dx = gamma·inv_std·dy.
 //!
-//! Timings: see the `ops` module documentation.
+//! Measured by benches/ops_quick.rs (thread CPU time, median of 15, one thread, forward +
+//! backward of the output's sum on a 64×16×8×8 input, on a shared 2-core machine under load ~3.6,
+//! so ±30%): µs, this kernel vs step 1
+//! (candle tensor ops, `reference::batch_norm`): training 340 vs 5,000; eval 200 vs 2,060.
 
 use candle_core::{CpuStorage, CustomOp3, Layout, Shape, Storage, Tensor};
 

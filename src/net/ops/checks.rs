@@ -2,6 +2,7 @@
 
 use candle_core::{DType, Tensor};
 
+use super::pool_geometry::PoolGeometry;
 use crate::{Error, Result};
 
 /// The four dimensions of `x`, which must be an f32 tensor of rank 4;
@@ -134,15 +135,13 @@ impl ConvGeometry {
     }
 }
 
-/// Checks a 3×3, padding-1 pooling input and returns its dims and the
-/// output size (H_out, W_out) for `stride`.
-pub(crate) fn pool3x3_dims(
-    x: &Tensor,
-    stride: usize,
-    what: &str,
-) -> Result<((usize, usize, usize, usize), (usize, usize))> {
+/// Checks a 3×3, padding-1 pooling of `x` with `stride` and returns its sizes.
+pub(crate) fn pool3x3_geometry(x: &Tensor, stride: usize, what: &str) -> Result<PoolGeometry> {
     let dims = f32_dims4(x, what)?;
-    let out_h = window_output_len(dims.2, 3, stride, 1, 1)?;
-    let out_w = window_output_len(dims.3, 3, stride, 1, 1)?;
-    Ok((dims, (out_h, out_w)))
+    Ok(PoolGeometry {
+        dims,
+        out_h: window_output_len(dims.2, 3, stride, 1, 1)?,
+        out_w: window_output_len(dims.3, 3, stride, 1, 1)?,
+        stride,
+    })
 }

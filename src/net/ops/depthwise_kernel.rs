@@ -4,7 +4,11 @@
 //! the compiler vectorises for stride 1. Per-channel im2col + gemm would
 //! run 1-row matrix products.
 //!
-//! Timings: see the `ops` module documentation.
+//! Measured by benches/ops_quick.rs (thread CPU time, median of 15, one thread, forward +
+//! backward of the output's sum on a 64×16×8×8 input, on a shared 2-core machine under load ~3.6,
+//! so ±30%): µs, this kernel vs im2col + gemm vs step 1
+//! (candle, per-group chunks + cat): 3×3 stride 1: 1,300 vs 1,460 vs 19,100; stride 2: 750 vs
+//! 960 vs 5,300. Dropped: per-channel shifted multiply-adds on a padded copy (1,800).
 
 use candle_core::{CpuStorage, CustomOp2, Layout, Shape, Tensor};
 

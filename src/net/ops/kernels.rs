@@ -6,10 +6,10 @@
 use candle_core::Tensor;
 
 use super::checks::ConvGeometry;
-use super::{conv_kernel, depthwise_kernel, shifted_conv_kernel, shifted_depthwise_kernel};
+use super::{conv_kernel, depthwise_kernel};
 use crate::{Error, Result};
 
-/// im2col + gemm per image and group: any stride, padding, dilation, groups.
+/// im2col + one gemm per block of images and group: any stride, padding, dilation, groups.
 pub fn conv2d_im2col(
     x: &Tensor,
     w: &Tensor,
@@ -20,24 +20,6 @@ pub fn conv2d_im2col(
 ) -> Result<Tensor> {
     let geometry = ConvGeometry::new(x, w, stride, padding, dilation, groups)?;
     Ok(conv_kernel::conv2d_im2col(x, w, geometry)?)
-}
-
-/// One gemm per kernel tap on a padded channel-major copy: stride 1, groups 1 only.
-pub fn conv2d_shifted_taps(
-    x: &Tensor,
-    w: &Tensor,
-    stride: usize,
-    padding: usize,
-    dilation: usize,
-    groups: usize,
-) -> Result<Tensor> {
-    let geometry = ConvGeometry::new(x, w, stride, padding, dilation, groups)?;
-    if !shifted_conv_kernel::handles(&geometry) {
-        return Err(Error::input(
-            "conv2d_shifted_taps needs stride 1 and groups 1",
-        ));
-    }
-    Ok(shifted_conv_kernel::shifted_conv2d(x, w, geometry)?)
 }
 
 /// Direct loops per image row: depthwise only (groups = C_in = C_out), any stride.
@@ -54,25 +36,4 @@ pub fn depthwise_direct(
         return Err(Error::input("depthwise_direct needs groups = C_in = C_out"));
     }
     Ok(depthwise_kernel::depthwise_conv2d(x, w, geometry)?)
-}
-
-/// One multiply-add per channel and tap on a padded channel-major copy:
-/// depthwise (groups = C_in = C_out) with stride 1 only.
-pub fn depthwise_shifted_taps(
-    x: &Tensor,
-    w: &Tensor,
-    stride: usize,
-    padding: usize,
-    dilation: usize,
-    groups: usize,
-) -> Result<Tensor> {
-    let geometry = ConvGeometry::new(x, w, stride, padding, dilation, groups)?;
-    if !shifted_depthwise_kernel::handles(&geometry) {
-        return Err(Error::input(
-            "depthwise_shifted_taps needs stride 1 and groups = C_in = C_out",
-        ));
-    }
-    Ok(shifted_depthwise_kernel::shifted_depthwise_conv2d(
-        x, w, geometry,
-    )?)
 }

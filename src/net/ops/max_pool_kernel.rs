@@ -6,7 +6,11 @@
 //! by comparing with the maxima (selects rather than branches: with random
 //! data a branch per comparison mispredicted half the time).
 //!
-//! Timings: see the `ops` module documentation.
+//! Measured by benches/ops_quick.rs (thread CPU time, median of 15, one thread, forward +
+//! backward of the output's sum on a 64×16×8×8 input, on a shared 2-core machine under load ~3.6,
+//! so ±30%): µs, this kernel vs step 1
+//! (−∞ padding + 9 strided index_selects + `maximum`): stride 1: 2,000 vs 16,900 (forward 490 vs
+//! 6,100); stride 2: 550 vs 3,300.
 
 use candle_core::{CpuStorage, CustomOp1, CustomOp2, Layout, Shape, Tensor};
 

@@ -3,9 +3,26 @@
 //! with padding 1, global average pooling and batch normalisation.
 //!
 //! Inputs are f32 tensors in (N, C, H, W) layout on the CPU. Each function
-//! picks its kernel internally, so faster kernels can replace slower ones
-//! without touching callers; [`reference`] keeps simple implementations
-//! built from candle's own ops for cross-checks and timing.
+//! picks its kernel internally (custom candle ops with their own backward),
+//! so faster kernels can replace slower ones without touching callers;
+//! [`kernels`] exposes every convolution kernel and [`reference`] keeps
+//! simple implementations built from candle's own ops, both for
+//! cross-checks and timing.
+//!
+//! Forward + backward on a 64×16×8×8 input, one thread, µs (chosen kernel vs
+//! reference; benches/ops_quick.rs, thread CPU time on a loaded machine, ±30%):
+//!
+//! | op | kernel | µs | reference µs |
+//! |---|---|---|---|
+//! | conv 3×3, pad 1 | im2col + gemm | 2,600 | 22,000 |
+//! | conv 3×3, stride 2 | im2col + gemm | 1,400 | 5,800 |
+//! | conv 1×1 | im2col + gemm | 450 | 3,300 |
+//! | conv 3×3, dilation 2 | im2col + gemm | 2,200 | 15,400 |
+//! | depthwise 3×3 (stride 1 / 2) | direct loops | 1,300 / 750 | 19,100 / 5,300 |
+//! | max pool 3×3 (stride 1 / 2) | separable | 2,000 / 550 | 16,900 / 3,300 |
+//! | avg pool 3×3 (stride 1 / 2) | separable | 510 / 320 | 11,000 / 2,250 |
+//! | global avg pool | candle `mean` | 40 | 40 |
+//! | batch norm (train / eval) | per-channel loops | 340 / 200 | 5,000 / 2,060 |
 
 mod avg_pool_kernel;
 mod batch_norm;
@@ -14,7 +31,6 @@ mod checks;
 mod conv_kernel;
 mod cpu_slices;
 mod depthwise_kernel;
-mod grid;
 mod im2col;
 pub mod kernels;
 mod matmul;
@@ -22,16 +38,13 @@ mod max_pool_kernel;
 mod pool_geometry;
 pub mod reference;
 mod scratch;
-mod shifted_conv_kernel;
-mod shifted_depthwise_kernel;
 
 use candle_core::Tensor;
 
 pub use batch_norm::BatchNorm2d;
 
 use crate::Result;
-use checks::{pool3x3_dims, ConvGeometry};
-use pool_geometry::PoolGeometry;
+use checks::{pool3x3_geometry, ConvGeometry};
 
 /// x: (N, C_in, H, W) f32; w: (C_out, C_in / groups, KH, KW); returns
 /// (N, C_out, H_out, W_out) with H_out = ⌊(H + 2·padding − dilation·(KH − 1) − 1) / stride⌋ + 1
@@ -55,29 +68,19 @@ pub fn conv2d(
 
 /// 3×3 max pool, padding 1 (padded cells never win), given stride (1 or 2). Differentiable.
 pub fn max_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
-    let geometry = pool_geometry(x, stride, "max_pool3x3 input")?;
+    let geometry = pool3x3_geometry(x, stride, "max_pool3x3 input")?;
     Ok(max_pool_kernel::max_pool3x3_kernel(x, geometry)?)
 }
 
 /// 3×3 average pool, padding 1, dividing by the number of in-image cells
 /// (count_include_pad = false), given stride. Differentiable.
 pub fn avg_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
-    let geometry = pool_geometry(x, stride, "avg_pool3x3 input")?;
+    let geometry = pool3x3_geometry(x, stride, "avg_pool3x3 input")?;
     Ok(avg_pool_kernel::avg_pool3x3_kernel(x, geometry)?)
 }
 
-/// Mean over H and W: (N, C, H, W) -> (N, C). Differentiable.
+/// Mean over H and W: (N, C, H, W) -> (N, C). Differentiable. (candle's own
+/// `mean` is already fast here, ~40 µs forward + backward, so no custom kernel.)
 pub fn global_avg_pool(x: &Tensor) -> Result<Tensor> {
     reference::global_avg_pool(x)
-}
-
-/// The checked sizes of a 3×3, padding-1 pooling of `x`.
-fn pool_geometry(x: &Tensor, stride: usize, what: &str) -> Result<PoolGeometry> {
-    let (dims, (out_h, out_w)) = pool3x3_dims(x, stride, what)?;
-    Ok(PoolGeometry {
-        dims,
-        out_h,
-        out_w,
-        stride,
-    })
 }

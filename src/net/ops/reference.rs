@@ -7,7 +7,7 @@
 
 use candle_core::{Device, Tensor};
 
-use super::checks::{pool3x3_dims, ConvGeometry};
+use super::checks::{pool3x3_geometry, ConvGeometry};
 use crate::Result;
 
 /// Same contract as [`super::conv2d`], computed by candle's `Tensor::conv2d`
@@ -27,11 +27,11 @@ pub fn conv2d(
 /// Same contract as [`super::max_pool3x3`]: the border is padded with −∞,
 /// then the maximum of the nine shifted, strided views is taken.
 pub fn max_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
-    let ((_, _, h, w), out_size) = pool3x3_dims(x, stride, "max_pool3x3 input")?;
-    let border = border_tensor(h, w, f32::NEG_INFINITY, x.device())?;
+    let g = pool3x3_geometry(x, stride, "max_pool3x3 input")?;
+    let border = border_tensor(g.in_h(), g.in_w(), f32::NEG_INFINITY, x.device())?;
     let padded = x.pad_with_zeros(2, 1, 1)?.pad_with_zeros(3, 1, 1)?;
     let padded = padded.broadcast_add(&border)?;
-    let views = window_views(&padded, stride, out_size)?;
+    let views = window_views(&padded, stride, (g.out_h, g.out_w))?;
     let mut result = views[0].clone();
     for view in &views[1..] {
         result = result.maximum(view)?;
@@ -43,7 +43,8 @@ pub fn max_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
 /// strided views of the zero-padded input, divided by the number of
 /// in-image cells under each window.
 pub fn avg_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
-    let ((_, _, h, w), (out_h, out_w)) = pool3x3_dims(x, stride, "avg_pool3x3 input")?;
+    let g = pool3x3_geometry(x, stride, "avg_pool3x3 input")?;
+    let (h, w, out_h, out_w) = (g.in_h(), g.in_w(), g.out_h, g.out_w);
     let padded = x.pad_with_zeros(2, 1, 1)?.pad_with_zeros(3, 1, 1)?;
     let views = window_views(&padded, stride, (out_h, out_w))?;
     let mut sum = views[0].clone();
