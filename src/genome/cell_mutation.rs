@@ -9,8 +9,8 @@
 use super::cell::{Cell, CellGenome, CellOp};
 use super::cell_space::CellSpace;
 use super::layer_mutation::{step_f64, step_index};
-use super::space::{Mutated, SeededRng};
-use crate::{Error, Result};
+use super::space::{check_mutation_weights, Mutated, SeededRng};
+use crate::Result;
 use rand::seq::SliceRandom;
 use rand::Rng;
 use serde::{Deserialize, Serialize};
@@ -288,20 +288,10 @@ impl CellMutationWeights {
 
     /// Checks every weight is finite and non-negative, and one is positive.
     pub fn check(&self) -> Result<()> {
-        for m in CellMutation::ALL {
-            let w = self.weight(m);
-            if !(w.is_finite() && w >= 0.0) {
-                return Err(Error::input(format!(
-                    "search space: mutation_weights.{} is {w}, allowed range is [0, inf)",
-                    m.name()
-                )));
-            }
-        }
-        if CellMutation::ALL.iter().all(|&m| self.weight(m) == 0.0) {
-            return Err(Error::input(
-                "search space: every mutation weight is 0; give at least one a positive weight",
-            ));
-        }
-        Ok(())
+        check_mutation_weights(
+            CellMutation::ALL
+                .iter()
+                .map(|&m| (m.name(), self.weight(m))),
+        )
     }
 }

@@ -7,8 +7,8 @@
 
 use super::layer::{LayerGene, LayerGenome};
 use super::layer_space::{grid_index, LayerSpace};
-use super::space::{Mutated, SeededRng};
-use crate::{Error, Result};
+use super::space::{check_mutation_weights, Mutated, SeededRng};
+use crate::Result;
 use rand::seq::SliceRandom;
 use rand::Rng;
 use serde::{Deserialize, Serialize};
@@ -335,20 +335,10 @@ impl MutationWeights {
 
     /// Checks every weight is finite and non-negative, and one is positive.
     pub fn check(&self) -> Result<()> {
-        for m in LayerMutation::ALL {
-            let w = self.weight(m);
-            if !(w.is_finite() && w >= 0.0) {
-                return Err(Error::input(format!(
-                    "search space: mutation_weights.{} is {w}, allowed range is [0, inf)",
-                    m.name()
-                )));
-            }
-        }
-        if LayerMutation::ALL.iter().all(|&m| self.weight(m) == 0.0) {
-            return Err(Error::input(
-                "search space: every mutation weight is 0; give at least one a positive weight",
-            ));
-        }
-        Ok(())
+        check_mutation_weights(
+            LayerMutation::ALL
+                .iter()
+                .map(|&m| (m.name(), self.weight(m))),
+        )
     }
 }

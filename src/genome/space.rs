@@ -45,3 +45,25 @@ pub trait SearchSpace: Send + Sync {
     /// The space's settings, for the run journal's header.
     fn describe(&self) -> serde_json::Value;
 }
+
+/// Checks a mutation catalogue's weights, given as (operator name, weight):
+/// each finite and non-negative, and at least one positive.
+pub(crate) fn check_mutation_weights(
+    weights: impl Iterator<Item = (&'static str, f64)>,
+) -> crate::Result<()> {
+    let mut any_positive = false;
+    for (name, w) in weights {
+        if !(w.is_finite() && w >= 0.0) {
+            return Err(crate::Error::input(format!(
+                "search space: mutation_weights.{name} is {w}, allowed range is [0, inf)"
+            )));
+        }
+        any_positive |= w > 0.0;
+    }
+    if !any_positive {
+        return Err(crate::Error::input(
+            "search space: every mutation weight is 0; give at least one a positive weight",
+        ));
+    }
+    Ok(())
+}
