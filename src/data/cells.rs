@@ -4,6 +4,19 @@
 /// Most offending cells quoted in one error message; the rest are only counted.
 pub(crate) const CELLS_SHOWN: usize = 5;
 
+/// Most characters of one cell or column name quoted in a message; longer
+/// texts are cut, so a hostile file cannot make an error message huge.
+pub(crate) const QUOTE_CHARS: usize = 40;
+
+/// `text` cut to `max_chars` characters, with `…` and its full length in
+/// characters appended when it was cut.
+pub(crate) fn shorten(text: &str, max_chars: usize) -> String {
+    match text.char_indices().nth(max_chars) {
+        None => text.to_string(),
+        Some((cut, _)) => format!("{}… ({} characters)", &text[..cut], text.chars().count()),
+    }
+}
+
 /// True for the texts that mark a missing value: the empty cell, `?`, and
 /// `NA` / `NaN` in any letter case (a signed `NaN` too).
 pub(crate) fn is_missing(text: &str) -> bool {
@@ -61,8 +74,11 @@ impl CellList {
     pub(crate) fn add(&mut self, line: u64, column: &str, text: &str) {
         self.total += 1;
         if self.shown.len() < CELLS_SHOWN {
-            self.shown
-                .push(format!("line {line}, column '{column}': '{text}'"));
+            self.shown.push(format!(
+                "line {line}, column '{}': '{}'",
+                shorten(column, QUOTE_CHARS),
+                shorten(text, QUOTE_CHARS)
+            ));
         }
     }
 
@@ -109,6 +125,16 @@ mod tests {
         assert_eq!(parse_number("1e999"), NumberCell::Infinite);
         assert_eq!(parse_number("NA"), NumberCell::Missing);
         assert_eq!(parse_number("red"), NumberCell::NotANumber);
+    }
+
+    #[test]
+    fn long_texts_are_cut_in_messages() {
+        assert_eq!(shorten("abc", 3), "abc");
+        assert_eq!(shorten("abcd", 3), "abc… (4 characters)");
+        assert_eq!(shorten("ééééé", 2), "éé… (5 characters)");
+        let mut list = CellList::default();
+        list.add(2, "a", &"x".repeat(1000));
+        assert!(list.describe().len() < 100, "{}", list.describe());
     }
 
     #[test]

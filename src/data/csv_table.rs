@@ -2,8 +2,10 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::data::cells::{count_of, parse_number, CellList, NumberCell};
+use crate::data::cells::{count_of, parse_number, shorten, CellList, NumberCell, QUOTE_CHARS};
 use crate::data::header::{check_delimiter, check_header, find_label};
+use crate::data::limits::MAX_CELL_BYTES;
+use crate::data::sniff::check_looks_like_text;
 use crate::data::CsvOptions;
 use crate::genome::sha256_hex;
 use crate::{Error, Result};
@@ -141,17 +143,27 @@ impl Table {
 
 /// Reads a CSV file with a header row into a [`Table`].
 ///
-/// Strips a UTF-8 byte-order mark, accepts LF and CRLF line ends, trims
+/// Strips a UTF-8 byte-order mark, accepts LF, CRLF and CR line ends, trims
 /// spaces around cells and skips blank lines. Fails with [`Error::Input`]
 /// (naming the file and the line, column or value) for an empty file, a header
 /// without data rows, invalid UTF-8, duplicate or empty column names, an
 /// unknown label column, a row with the wrong number of fields, and infinite
 /// numbers in a numeric feature column. Missing cells are kept; whether they
 /// are allowed is decided when fitting the preprocessor.
+///
+/// Hostile or mistaken files are refused quickly: a folder, compressed or
+/// binary data (see `sniff.rs`), more than [`crate::data::MAX_COLUMNS`]
+/// columns, and cells or names longer than [`crate::data::MAX_CELL_BYTES`].
 pub fn read_table(path: &Path, opts: &CsvOptions) -> Result<Table> {
     let file = path.display().to_string();
+    if path.is_dir() {
+        return Err(Error::input(format!(
+            "{file}: is a folder, not a CSV file; give the path of the CSV file itself"
+        )));
+    }
     let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
     let fingerprint = sha256_hex(&bytes);
+    check_looks_like_text(&file, &bytes)?;
     let text = decode_utf8(&file, &bytes)?;
     if text.trim().is_empty() {
         return Err(Error::input(format!(
@@ -188,15 +200,34 @@ pub fn read_table(path: &Path, opts: &CsvOptions) -> Result<Table> {
             continue; // a line of spaces only
         }
         if record.len() != names.len() {
+            let hint = if record.iter().any(|cell| cell.contains('\n')) {
+                format!(
+                    "; a quoted cell starting on line {line} spans several lines: check for a \
+                     missing closing quote"
+                )
+            } else {
+                format!(
+                    "; check for a missing or extra delimiter ('{}'), and quote cells that \
+                     contain it",
+                    delimiter as char
+                )
+            };
             return Err(Error::input(format!(
-                "{file}: line {line} has {} but the header has {}; check for a missing or extra \
-                 delimiter ('{}'), and quote cells that contain it",
+                "{file}: line {line} has {} but the header has {}{hint}",
                 count_of(record.len(), "field"),
                 count_of(names.len(), "field"),
-                delimiter as char
             )));
         }
         for (column, cell) in record.iter().enumerate() {
+            if cell.len() > MAX_CELL_BYTES {
+                return Err(Error::input(format!(
+                    "{file}: line {line}, column '{}': the cell is {} bytes long, more than the \
+                     {MAX_CELL_BYTES} allowed; if it starts with a quote, check for a missing \
+                     closing quote",
+                    shorten(&names[column], QUOTE_CHARS),
+                    cell.len()
+                )));
+            }
             cells[column].push(cell.to_string());
         }
         lines.push(line);
@@ -234,11 +265,14 @@ fn decode_utf8<'a>(file: &str, bytes: &'a [u8]) -> Result<&'a str> {
     })
 }
 
-/// The text with CRLF line ends turned into LF, so the CSV reader reports
-/// correct line numbers (it counts a CRLF record as starting on the line before).
+/// The text with CRLF and lone CR line ends (Windows; classic Mac, still
+/// written by "CSV (Macintosh)" exports) turned into LF, so the CSV reader
+/// reports correct line numbers: it ends a record at a lone CR but counts only
+/// LF as a new line, and counts a CRLF record as starting on the line before.
+/// A carriage return inside a quoted cell becomes a line feed too.
 fn without_carriage_returns(text: &str) -> std::borrow::Cow<'_, str> {
-    if text.contains("\r\n") {
-        std::borrow::Cow::Owned(text.replace("\r\n", "\n"))
+    if text.contains('\r') {
+        std::borrow::Cow::Owned(text.replace("\r\n", "\n").replace('\r', "\n"))
     } else {
         std::borrow::Cow::Borrowed(text)
     }

@@ -2,7 +2,9 @@
 
 use std::collections::BTreeMap;
 
-use crate::data::cells::{count_of, is_missing, parse_number, CellList, NumberCell};
+use crate::data::cells::{
+    count_of, is_missing, parse_number, shorten, CellList, NumberCell, QUOTE_CHARS,
+};
 use crate::data::column_plan::{ColumnPlan, Fill, ValueEncoding};
 use crate::data::Table;
 use crate::{Error, Result};
@@ -81,7 +83,19 @@ fn encode_cell(
     match &plan.encoding {
         ValueEncoding::Standardised { mean, std } => {
             let value = number.unwrap_or(*mean);
-            x.push(((value - mean) / std) as f32);
+            let scaled = ((value - mean) / std) as f32;
+            if !scaled.is_finite() {
+                return Err(Error::input(format!(
+                    "{}: line {}, column '{}': '{}' lies too far from the training values \
+                     (mean {mean:.4e}, standard deviation {std:.4e}) to encode as a 32-bit \
+                     number; check the value, or rescale the column",
+                    table.file(),
+                    cell.line,
+                    shorten(&plan.name, QUOTE_CHARS),
+                    shorten(cell.text, QUOTE_CHARS)
+                )));
+            }
+            x.push(scaled);
         }
         ValueEncoding::OneHot { categories } => {
             let category = match (&plan.fill, was_missing) {
@@ -120,16 +134,16 @@ fn read_number(plan: &ColumnPlan, cell: Cell<'_>, table: &Table) -> Result<f64> 
              replace it with a finite value",
             table.file(),
             cell.line,
-            plan.name,
-            cell.text
+            shorten(&plan.name, QUOTE_CHARS),
+            shorten(cell.text, QUOTE_CHARS)
         ))),
         (NumberCell::NotANumber, _) => Err(Error::input(format!(
             "{}: line {}, column '{}': '{}' is not a number, but this column held numbers in \
              the training data",
             table.file(),
             cell.line,
-            plan.name,
-            cell.text
+            shorten(&plan.name, QUOTE_CHARS),
+            shorten(cell.text, QUOTE_CHARS)
         ))),
     }
 }
@@ -178,8 +192,10 @@ fn unseen_warnings(column: &str, values: &Unseen) -> Vec<String> {
         .take(UNSEEN_SHOWN)
         .map(|(value, (rows, line))| {
             format!(
-                "column '{column}': category '{value}' was not seen in the training split \
+                "column '{}': category '{}' was not seen in the training split \
                  ({}, first at line {line}); encoded as all zeros",
+                shorten(column, QUOTE_CHARS),
+                shorten(value, QUOTE_CHARS),
                 count_of(*rows, "row")
             )
         })

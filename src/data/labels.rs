@@ -1,6 +1,8 @@
 //! Turning the label column into class names and class indices.
 
-use crate::data::cells::{count_of, is_missing, CellList};
+use crate::data::cells::{
+    count_of, is_missing, parse_number, shorten, CellList, NumberCell, QUOTE_CHARS,
+};
 use crate::data::Table;
 use crate::{Error, Result};
 
@@ -53,4 +55,43 @@ pub(crate) fn class_index(names: &[String], text: &str) -> Option<u32> {
         .binary_search_by(|name| name.as_str().cmp(text))
         .ok()
         .and_then(|i| u32::try_from(i).ok())
+}
+
+/// Warnings about class names that are probably a mistake: a label column that
+/// mixes numbers and text (e.g. `1`, `2` and `two`), and numbers written in
+/// two ways (e.g. `1` and `1.0`), which are different classes because classes
+/// are compared as text.
+pub(crate) fn label_warnings(table: &Table, names: &[String]) -> Vec<String> {
+    let label = shorten(table.label_name(), QUOTE_CHARS);
+    let mut warnings = Vec::new();
+    let mut numeric: Vec<(&String, f64)> = names
+        .iter()
+        .filter_map(|name| match parse_number(name) {
+            NumberCell::Finite(value) => Some((name, value)),
+            _ => None,
+        })
+        .collect();
+    let text = names
+        .iter()
+        .find(|name| !matches!(parse_number(name), NumberCell::Finite(_)));
+    if let (Some((number, _)), Some(text)) = (numeric.first(), text) {
+        warnings.push(format!(
+            "{}: the label column '{label}' mixes numbers (e.g. '{}') and text (e.g. '{}'); \
+             every distinct text is its own class, so check for typos",
+            table.file(),
+            shorten(number, QUOTE_CHARS),
+            shorten(text, QUOTE_CHARS)
+        ));
+    }
+    numeric.sort_by(|a, b| a.1.total_cmp(&b.1));
+    if let Some(pair) = numeric.windows(2).find(|w| w[0].1 == w[1].1) {
+        warnings.push(format!(
+            "{}: the label column '{label}' holds '{}' and '{}', which are the same number \
+             written two ways but count as two classes; write each class one way",
+            table.file(),
+            shorten(pair[0].0, QUOTE_CHARS),
+            shorten(pair[1].0, QUOTE_CHARS)
+        ));
+    }
+    warnings
 }

@@ -13,16 +13,19 @@ mod encode;
 mod header;
 pub mod image;
 mod labels;
+mod limits;
 mod options;
 mod prepare;
 mod preprocess;
 #[cfg(test)]
 mod preprocess_tests;
 mod sealed;
+mod sniff;
 mod split;
 
 pub use csv_table::{read_table, ColumnKind, Table};
 pub use dataset::Dataset;
+pub use limits::{MAX_CELL_BYTES, MAX_COLUMNS};
 pub use options::{CsvOptions, SplitFractions};
 pub use prepare::{prepare, DataInfo, Prepared};
 pub use preprocess::{Encoded, Preprocessor};

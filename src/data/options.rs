@@ -53,16 +53,16 @@ impl SplitFractions {
         ] {
             if !(value > 0.0 && value < 1.0) {
                 return Err(Error::input(format!(
-                    "the {name} fraction is {value}, but each split fraction must lie strictly \
-                     between 0 and 1 (e.g. train 0.70, validation 0.15, test 0.15)"
+                    "the {name} fraction is {value} (--split), but each split fraction must \
+                     lie strictly between 0 and 1 (e.g. train 0.70, validation 0.15, test 0.15)"
                 )));
             }
         }
         let sum = self.train + self.valid + self.test;
         if (sum - 1.0).abs() > 1e-9 {
             return Err(Error::input(format!(
-                "the split fractions train {} + validation {} + test {} sum to {sum}, not 1; \
-                 adjust them so they add up to 1",
+                "the split fractions train {} + validation {} + test {} sum to {sum}, not 1 \
+                 (--split); adjust them so they add up to 1",
                 self.train, self.valid, self.test
             )));
         }

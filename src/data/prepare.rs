@@ -4,7 +4,7 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
-use crate::data::labels::class_indices;
+use crate::data::labels::{class_indices, label_warnings};
 use crate::data::split::split_named;
 use crate::data::{read_table, CsvOptions, Dataset, Preprocessor, Sealed, SplitFractions};
 use crate::{Error, Result};
@@ -70,7 +70,9 @@ pub fn prepare(
             Error::Input(message) => Error::input(format!("{}: {message}", path.display())),
             other => other,
         })?;
-    let (preprocessor, mut warnings) = Preprocessor::fit(&table, &split.train, opts.impute)?;
+    let (preprocessor, fit_warnings) = Preprocessor::fit(&table, &split.train, opts.impute)?;
+    let mut warnings = label_warnings(&table, &class_names);
+    warnings.extend(fit_warnings);
     let (train, _) = preprocessor.transform_with_warnings(&table, &split.train)?;
     let (valid, valid_warnings) = preprocessor.transform_with_warnings(&table, &split.valid)?;
     warnings.extend(

@@ -6,7 +6,7 @@
 //! The shapes, preprocessing and counting rules a network builder follows are
 //! written down in `crate::net::cell_cost`.
 
-use super::layer::{short_hash, LayerGenome, TrainGenes};
+use super::layer::{json_problem, short_hash, LayerGenome, TrainGenes};
 use crate::{Error, Result};
 use serde::{de::DeserializeOwned, Deserialize, Serialize};
 use std::fmt::Debug;
@@ -218,10 +218,14 @@ impl<Op: CellOp> Cell<Op> {
         for (i, block) in self.blocks.iter().enumerate() {
             for (slot, &input) in block.inputs.iter().enumerate() {
                 if usize::from(input) > i + 1 {
+                    let later = usize::from(input) - 2;
                     return Err(Error::input(format!(
-                        "{name}.blocks[{i}].inputs[{slot}] is {input}, allowed range is 0..={} ({})",
+                        "{name}.blocks[{i}].inputs[{slot}] is {input}, allowed range is 0..={} ({}); \
+                         state {input} is the output of block {later}, which {} block {i}: a \
+                         block reads only h0, h1 and earlier blocks",
                         i + 1,
-                        state_names(i)
+                        state_names(i),
+                        if later == i { "is" } else { "comes after" }
                     )));
                 }
             }
@@ -414,10 +418,11 @@ impl<Op: CellOp> CellGenome<Op> {
     pub fn from_json(text: &str, source: &str) -> Result<Self> {
         serde_json::from_str(text).map_err(|e| {
             Error::input(format!(
-                "{source}:{}:{}: not a valid cell genome ({} ops): {e}",
+                "{source}:{}:{}: not a valid cell genome ({} ops): {}",
                 e.line(),
                 e.column(),
-                Op::TAG
+                Op::TAG,
+                json_problem(&e)
             ))
         })
     }

@@ -3,6 +3,12 @@
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
+/// Most hidden layers any layer genome may have (whatever the search space).
+pub const MAX_HIDDEN_LAYERS: usize = 64;
+
+/// Widest hidden layer any layer genome may have (whatever the search space).
+pub const MAX_LAYER_WIDTH: u32 = 65_536;
+
 /// A hidden layer's non-linearity.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "lowercase")]
@@ -120,10 +126,17 @@ impl LayerGenome {
     }
 
     /// Checks the limits every genome must meet whatever the search space:
-    /// widths ≥ 1, dropout in [0, 1), positive learning rate and batch size,
-    /// residual skips only between hidden layers of equal width (never on the
-    /// first hidden layer, so a genome's validity does not depend on the data).
+    /// at most [`MAX_HIDDEN_LAYERS`] layers, widths in 1..=[`MAX_LAYER_WIDTH`],
+    /// dropout in [0, 1), positive learning rate and batch size, residual
+    /// skips only between hidden layers of equal width (never on the first
+    /// hidden layer, so a genome's validity does not depend on the data).
     pub fn validate_basic(&self) -> crate::Result<()> {
+        if self.layers.len() > MAX_HIDDEN_LAYERS {
+            return Err(crate::Error::input(format!(
+                "layers has {} entries, allowed range is 0..={MAX_HIDDEN_LAYERS}",
+                self.layers.len()
+            )));
+        }
         let t = &self.training;
         if !(t.learning_rate.is_finite() && t.learning_rate > 0.0 && t.learning_rate <= 10.0) {
             return Err(crate::Error::input(format!(
@@ -144,9 +157,10 @@ impl LayerGenome {
         }
         let mut prev: Option<usize> = None;
         for (i, layer) in self.layers.iter().enumerate() {
-            if layer.width == 0 {
+            if layer.width == 0 || layer.width > MAX_LAYER_WIDTH {
                 return Err(crate::Error::input(format!(
-                    "layers[{i}].width is 0, allowed range is 1 or more"
+                    "layers[{i}].width is {}, allowed range is 1..={MAX_LAYER_WIDTH}",
+                    layer.width
                 )));
             }
             if !(layer.dropout.is_finite() && (0.0..1.0).contains(&layer.dropout)) {
@@ -177,11 +191,23 @@ impl LayerGenome {
     pub fn from_json(text: &str, source: &str) -> crate::Result<Self> {
         serde_json::from_str(text).map_err(|e| {
             crate::Error::input(format!(
-                "{source}:{}:{}: not a valid layer genome: {e}",
+                "{source}:{}:{}: not a valid layer genome: {}",
                 e.line(),
-                e.column()
+                e.column(),
+                json_problem(&e)
             ))
         })
+    }
+}
+
+/// What a JSON parse error says, without serde_json's trailing " at line L
+/// column C" (our messages put the position first, as `file:line:column`).
+pub(crate) fn json_problem(error: &serde_json::Error) -> String {
+    let text = error.to_string();
+    let suffix = format!(" at line {} column {}", error.line(), error.column());
+    match text.strip_suffix(&suffix) {
+        Some(problem) => problem.to_string(),
+        None => text,
     }
 }
 

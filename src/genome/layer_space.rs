@@ -1,6 +1,9 @@
 //! The search space of layer genomes: bounds, validation, exact size, sampling.
 
-use super::layer::{Activation, LayerGene, LayerGenome, Optimizer, TrainGenes};
+use super::layer::{
+    json_problem, Activation, LayerGene, LayerGenome, Optimizer, TrainGenes, MAX_HIDDEN_LAYERS,
+    MAX_LAYER_WIDTH,
+};
 use super::layer_mutation::{LayerMutation, MutationWeights};
 use super::space::{Mutated, SearchSpace, SeededRng};
 use crate::{Error, Result};
@@ -86,9 +89,9 @@ impl LayerSpace {
                 self.min_layers, self.max_layers
             ));
         }
-        if self.max_layers > 64 {
+        if self.max_layers as usize > MAX_HIDDEN_LAYERS {
             return bad(format!(
-                "max_layers {} is above the limit of 64",
+                "max_layers {} is above the limit of {MAX_HIDDEN_LAYERS}",
                 self.max_layers
             ));
         }
@@ -98,9 +101,9 @@ impl LayerSpace {
                 self.min_width, self.max_width
             ));
         }
-        if self.max_width > 65_536 {
+        if self.max_width > MAX_LAYER_WIDTH {
             return bad(format!(
-                "max_width {} is above the limit of 65536",
+                "max_width {} is above the limit of {MAX_LAYER_WIDTH}",
                 self.max_width
             ));
         }
@@ -278,9 +281,10 @@ impl LayerSpace {
     pub fn from_json(text: &str, source: &str) -> Result<Self> {
         let space: LayerSpace = serde_json::from_str(text).map_err(|e| {
             Error::input(format!(
-                "{source}:{}:{}: not a valid layer search space: {e}",
+                "{source}:{}:{}: not a valid layer search space: {}",
                 e.line(),
-                e.column()
+                e.column(),
+                json_problem(&e)
             ))
         })?;
         space.check()?;

@@ -42,17 +42,26 @@ impl AgingSettings {
     /// Checks `1 <= S <= P <= evaluations`.
     pub fn check(&self, evaluations: u64) -> Result<()> {
         if self.sample_size == 0 {
-            return Err(Error::input("the sample size must be at least 1"));
+            return Err(Error::input(
+                "the tournament sample size (--sample-size) is 0; it must be at least 1",
+            ));
+        }
+        if self.population == 0 {
+            return Err(Error::input(
+                "the population (--population) is 0; it must be at least 1",
+            ));
         }
         if self.sample_size > self.population {
             return Err(Error::input(format!(
-                "the sample size ({}) must not exceed the population ({})",
+                "the tournament sample size (--sample-size {}) must not exceed the population \
+                 (--population {}); lower the sample size or raise the population",
                 self.sample_size, self.population
             )));
         }
         if self.population as u64 > evaluations {
             return Err(Error::input(format!(
-                "the population ({}) must not exceed the evaluation budget ({evaluations})",
+                "the population (--population {}) must not exceed the evaluation budget \
+                 (--budget {evaluations}); lower the population or raise the budget",
                 self.population
             )));
         }

@@ -27,12 +27,15 @@ impl Budget {
     /// Checks the limits are usable (at least one evaluation, a positive finite time).
     pub fn check(&self) -> Result<()> {
         if self.evaluations == 0 {
-            return Err(Error::input("the evaluation budget must be at least 1"));
+            return Err(Error::input(
+                "the evaluation budget (--budget) is 0; it must be at least 1",
+            ));
         }
         if let Some(seconds) = self.seconds {
             if !(seconds.is_finite() && seconds > 0.0) {
                 return Err(Error::input(format!(
-                    "the time budget must be a positive number of seconds, got {seconds}"
+                    "the time budget (--time-limit) is {seconds}; it must be a positive \
+                     number of seconds"
                 )));
             }
         }

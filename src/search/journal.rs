@@ -6,10 +6,17 @@
 //! per committed evaluation in index order, and `"test_opening"` records
 //! appended when the sealed test split is opened. Every record is written
 //! with one write and synced to disk before anything depends on it.
+//!
+//! Crash safety: the journal appears with its complete header line or not at
+//! all; a write that fails (a full disk) is cut off again, so the file keeps
+//! exactly the complete records before it; a line torn by a kill is ignored
+//! on reading and removed by the next resume. Records go through a
+//! [`JournalSink`], which tests replace to inject write errors.
 
 use super::journal_read::parse_journal;
 use super::lock::RunLock;
 use super::records::{EvaluationRecord, RunHeader};
+use crate::fsio::{create_new_atomic, is_temp_of, open_no_follow};
 use crate::{Error, Result};
 use serde::{de::DeserializeOwned, Serialize};
 use std::fs::{File, OpenOptions};
@@ -34,10 +41,49 @@ pub struct JournalContents<G = serde_json::Value> {
     pub intact_len: u64,
 }
 
+/// Where journal records go: an append-only byte sink that can be made
+/// durable. The journal file itself in normal runs; a test can wrap the file
+/// to inject write errors (a full disk after N bytes, say).
+pub trait JournalSink: Send {
+    /// Appends all of `bytes` at the end, or fails (possibly after writing a prefix).
+    fn append(&mut self, bytes: &[u8]) -> std::io::Result<()>;
+    /// Makes everything appended so far durable.
+    fn sync(&mut self) -> std::io::Result<()>;
+    /// Cuts the sink back to its first `len` bytes and makes that durable
+    /// (drops a partly written record).
+    fn truncate(&mut self, len: u64) -> std::io::Result<()>;
+}
+
+impl JournalSink for File {
+    fn append(&mut self, bytes: &[u8]) -> std::io::Result<()> {
+        self.write_all(bytes)
+    }
+
+    fn sync(&mut self) -> std::io::Result<()> {
+        self.sync_data()
+    }
+
+    fn truncate(&mut self, len: u64) -> std::io::Result<()> {
+        self.set_len(len)?;
+        self.sync_data()
+    }
+}
+
+/// Builds the sink a journal writes through from its opened file (in append
+/// mode). [`plain_sink`] writes to the file directly.
+pub type SinkFactory = dyn Fn(File) -> Box<dyn JournalSink> + Sync;
+
+/// The [`SinkFactory`] of normal runs: the journal file itself.
+pub fn plain_sink(file: File) -> Box<dyn JournalSink> {
+    Box::new(file)
+}
+
 /// An open journal, appending records.
 pub struct Journal {
     path: PathBuf,
-    file: File,
+    sink: Box<dyn JournalSink>,
+    /// Bytes of complete records in the file.
+    len: u64,
 }
 
 #[derive(Serialize)]
@@ -70,43 +116,68 @@ impl Journal {
 
     /// Creates the journal of a new run and writes its header.
     pub fn create(run_dir: &Path, header: &RunHeader) -> Result<Journal> {
+        Journal::create_with(run_dir, header, &plain_sink)
+    }
+
+    /// [`Journal::create`] writing through the sink `wrap` builds.
+    ///
+    /// The file appears complete with its header line or not at all (temp
+    /// file, fsync, link), so a crash while a run starts never leaves an
+    /// empty journal behind.
+    pub fn create_with(run_dir: &Path, header: &RunHeader, wrap: &SinkFactory) -> Result<Journal> {
         let path = Journal::path_in(run_dir);
-        let file = OpenOptions::new()
-            .append(true)
-            .create_new(true)
-            .open(&path)
-            .map_err(|e| match e.kind() {
-                std::io::ErrorKind::AlreadyExists => Error::input(format!(
+        remove_stale_temps(run_dir);
+        let line = record_line("header", header)?;
+        create_new_atomic(&path, &line).map_err(|e| match e {
+            Error::Io { cause, .. } if cause.kind() == std::io::ErrorKind::AlreadyExists => {
+                Error::input(format!(
                     "{} already holds a run journal; resume that run or choose another directory",
                     run_dir.display()
-                )),
-                _ => Error::io(&path, e),
-            })?;
-        sync_directory(run_dir);
-        let mut journal = Journal { path, file };
-        journal.append("header", header)?;
-        Ok(journal)
+                ))
+            }
+            other => other,
+        })?;
+        let file = open_for_append(&path)?;
+        Ok(Journal {
+            path,
+            sink: wrap(file),
+            len: line.len() as u64,
+        })
     }
 
     /// Opens an existing journal for appending after its first `intact_len`
     /// bytes, cutting off a torn last line.
     pub fn reopen(run_dir: &Path, intact_len: u64) -> Result<Journal> {
+        Journal::reopen_with(run_dir, intact_len, &plain_sink)
+    }
+
+    /// [`Journal::reopen`] writing through the sink `wrap` builds.
+    pub fn reopen_with(run_dir: &Path, intact_len: u64, wrap: &SinkFactory) -> Result<Journal> {
         let path = Journal::path_in(run_dir);
-        let file = OpenOptions::new()
-            .append(true)
-            .open(&path)
-            .map_err(|e| Error::io(&path, e))?;
+        let file = open_for_append(&path)?;
         let length = file.metadata().map_err(|e| Error::io(&path, e))?.len();
-        if length > intact_len {
-            file.set_len(intact_len).map_err(|e| Error::io(&path, e))?;
-            file.sync_all().map_err(|e| Error::io(&path, e))?;
+        if length < intact_len {
+            return Err(Error::input(format!(
+                "{}: the file shrank from {intact_len} to {length} bytes while it was being read; \
+                 is another program changing it?",
+                path.display()
+            )));
         }
-        Ok(Journal { path, file })
+        let mut sink = wrap(file);
+        if length > intact_len {
+            sink.truncate(intact_len).map_err(|e| Error::io(&path, e))?;
+        }
+        Ok(Journal {
+            path,
+            sink,
+            len: intact_len,
+        })
     }
 
     /// Appends one evaluation record.
     pub fn append_evaluation<G: Serialize>(&mut self, record: &EvaluationRecord<G>) -> Result<()> {
-        self.append("evaluation", record)
+        let what = format!("evaluation record {}", record.index);
+        self.append("evaluation", record, &what)
     }
 
     /// Appends a test-opening record with a caller-provided body to the
@@ -117,24 +188,73 @@ impl Journal {
         let run_dir = lock.run_dir();
         let contents: JournalContents = Journal::read(&Journal::path_in(run_dir))?;
         let mut journal = Journal::reopen(run_dir, contents.intact_len)?;
-        journal.append("test_opening", &OpeningBody { body })?;
+        journal.append(
+            "test_opening",
+            &OpeningBody { body },
+            "the test-opening record",
+        )?;
         Ok(contents.warnings)
     }
 
-    fn append<T: Serialize>(&mut self, kind: &str, body: &T) -> Result<()> {
-        let mut line = serde_json::to_vec(&Tagged { kind, body })
-            .map_err(|e| Error::internal(format!("journal record not serializable: {e}")))?;
-        line.push(b'\n');
-        self.file
-            .write_all(&line)
-            .and_then(|()| self.file.sync_data())
-            .map_err(|e| Error::io(&self.path, e))
+    /// Writes one record and syncs it. On failure the partial line is cut
+    /// off again (best effort; a resume also removes it), so the file keeps
+    /// exactly the complete records written before, and the error names the
+    /// file, the cause (e.g. "No space left on device"), `what` was being
+    /// written and what to do.
+    fn append<T: Serialize>(&mut self, kind: &str, body: &T, what: &str) -> Result<()> {
+        let line = record_line(kind, body)?;
+        let written = self.sink.append(&line).and_then(|()| self.sink.sync());
+        let Err(cause) = written else {
+            self.len += line.len() as u64;
+            return Ok(());
+        };
+        let partial = match self.sink.truncate(self.len) {
+            Ok(()) => "",
+            Err(_) => " (a partial last line may remain; a resume removes it)",
+        };
+        let advice = match (kind, self.path.parent()) {
+            ("evaluation", Some(run_dir)) => format!(
+                "free some disk space, then continue with `gemmule resume {}`",
+                run_dir.display()
+            ),
+            _ => "free some disk space and try again".to_string(),
+        };
+        let text = format!(
+            "{cause}, while appending {what}; the journal keeps every complete record \
+             written before it{partial}; {advice}"
+        );
+        Err(Error::io(
+            &self.path,
+            std::io::Error::new(cause.kind(), text),
+        ))
     }
 }
 
-/// Makes a newly created file's directory entry durable (best effort).
-pub(crate) fn sync_directory(dir: &Path) {
-    if let Ok(handle) = File::open(dir) {
-        let _ = handle.sync_all();
+/// One record as its journal line (compact JSON and `\n`).
+fn record_line<T: Serialize>(kind: &str, body: &T) -> Result<Vec<u8>> {
+    let mut line = serde_json::to_vec(&Tagged { kind, body })
+        .map_err(|e| Error::internal(format!("journal record not serializable: {e}")))?;
+    line.push(b'\n');
+    Ok(line)
+}
+
+/// Removes temporary journal files left by a process killed while it
+/// created a journal (the caller holds the run lock, so none is in use).
+fn remove_stale_temps(run_dir: &Path) {
+    let Ok(entries) = std::fs::read_dir(run_dir) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        if entry
+            .file_name()
+            .to_str()
+            .is_some_and(|name| is_temp_of(name, JOURNAL_FILE))
+        {
+            let _ = std::fs::remove_file(entry.path());
+        }
     }
+}
+
+fn open_for_append(path: &Path) -> Result<File> {
+    open_no_follow(path, OpenOptions::new().append(true))
 }

@@ -26,13 +26,16 @@ mod timings;
 pub use aging::{AgingEvolution, AgingSettings};
 pub use budget::{default_population, default_sample_size, Budget};
 pub use evaluation::{EvalStatus, Evaluation, Evaluator};
-pub use journal::{Journal, JournalContents, JOURNAL_FILE};
+pub use journal::{plain_sink, Journal, JournalContents, JournalSink, SinkFactory, JOURNAL_FILE};
 pub use lock::{RunLock, LOCK_FILE};
 pub use observer::{QuietObserver, SearchObserver};
 pub use plan::{check_same_run, SearchPlan};
 pub use random::RandomSampling;
 pub use records::{EvaluationRecord, RunHeader, StrategyInfo, JOURNAL_FORMAT, TOOL_VERSION};
-pub use run::{resume_search, run_search, SearchContext, SearchEnding, SearchOutcome};
+pub use run::{
+    resume_search, resume_search_with_sink, run_search, run_search_with_sink, SearchContext,
+    SearchEnding, SearchOutcome,
+};
 pub use strategy::{compare_objectives, Proposal, Strategy};
 pub use summary::RunSummary;
 pub use timings::{TimingEntry, TimingLog, TIMINGS_FILE};

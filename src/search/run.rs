@@ -1,7 +1,7 @@
 //! Starting and resuming a search in a run directory.
 
 use super::evaluation::Evaluator;
-use super::journal::{Journal, JournalContents};
+use super::journal::{plain_sink, Journal, JournalContents, SinkFactory};
 use super::lock::RunLock;
 use super::observer::SearchObserver;
 use super::plan::{check_same_run, SearchPlan};
@@ -66,11 +66,30 @@ where
     S: SearchSpace,
     E: Evaluator<S::Genome> + 'static,
 {
+    run_search_with_sink(run_dir, plan, context, &plain_sink)
+}
+
+/// [`run_search`] with the journal written through the sink `wrap` builds
+/// (fault injection in tests: a full disk after N bytes, say).
+///
+/// A failed journal write ends the session with an [`Error::Io`] naming the
+/// journal and the cause; the journal keeps every complete record, and
+/// [`resume_search`] continues the run once the cause is gone.
+pub fn run_search_with_sink<S, E>(
+    run_dir: &Path,
+    plan: &SearchPlan,
+    context: SearchContext<'_, S, E>,
+    wrap: &SinkFactory,
+) -> Result<SearchOutcome>
+where
+    S: SearchSpace,
+    E: Evaluator<S::Genome> + 'static,
+{
     plan.check()?;
     std::fs::create_dir_all(run_dir).map_err(|e| Error::io(run_dir, e))?;
     let (_lock, warning) = RunLock::acquire(run_dir)?;
     let header = plan.header(context.strategy.name(), context.strategy.settings());
-    let journal = Journal::create(run_dir, &header)?;
+    let journal = Journal::create_with(run_dir, &header, wrap)?;
     let files = SessionFiles {
         journal,
         timings: TimingLog::open(run_dir)?,
@@ -91,6 +110,21 @@ pub fn resume_search<S, E>(
     run_dir: &Path,
     plan: &SearchPlan,
     context: SearchContext<'_, S, E>,
+) -> Result<SearchOutcome>
+where
+    S: SearchSpace,
+    E: Evaluator<S::Genome> + 'static,
+{
+    resume_search_with_sink(run_dir, plan, context, &plain_sink)
+}
+
+/// [`resume_search`] with the journal written through the sink `wrap`
+/// builds (see [`run_search_with_sink`]).
+pub fn resume_search_with_sink<S, E>(
+    run_dir: &Path,
+    plan: &SearchPlan,
+    context: SearchContext<'_, S, E>,
+    wrap: &SinkFactory,
 ) -> Result<SearchOutcome>
 where
     S: SearchSpace,
@@ -119,7 +153,7 @@ where
     let mut warnings: Vec<String> = warning.into_iter().collect();
     warnings.extend(contents.warnings);
     let files = SessionFiles {
-        journal: Journal::reopen(run_dir, contents.intact_len)?,
+        journal: Journal::reopen_with(run_dir, contents.intact_len, wrap)?,
         timings: TimingLog::open(run_dir)?,
         replay: contents.evaluations,
         written_by: contents.header.tool_version,
@@ -159,3 +193,7 @@ where
         warnings,
     })
 }
+
+#[cfg(test)]
+#[path = "sink_tests.rs"]
+mod sink_tests;

@@ -4,10 +4,11 @@
 //! synced, and readers skip lines they cannot parse.
 
 use super::budget::Budget;
+use crate::fsio::open_no_follow;
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::fs::{File, OpenOptions};
-use std::io::Write;
+use std::io::{Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 use std::time::{SystemTime, UNIX_EPOCH};
 
@@ -56,13 +57,18 @@ pub struct TimingLog {
 
 impl TimingLog {
     /// Opens (creating if needed) the timings log of `run_dir`.
+    ///
+    /// A last line cut off by a crash is ended with a newline first, so the
+    /// next entry starts on a line of its own (readers skip the torn one).
     pub fn open(run_dir: &Path) -> Result<TimingLog> {
         let path = run_dir.join(TIMINGS_FILE);
-        let file = OpenOptions::new()
-            .append(true)
-            .create(true)
-            .open(&path)
-            .map_err(|e| Error::io(&path, e))?;
+        let mut file = open_no_follow(
+            &path,
+            OpenOptions::new().read(true).append(true).create(true),
+        )?;
+        if ends_torn(&mut file).map_err(|e| Error::io(&path, e))? {
+            file.write_all(b"\n").map_err(|e| Error::io(&path, e))?;
+        }
         Ok(TimingLog { path, file })
     }
 
@@ -89,5 +95,42 @@ impl TimingLog {
             .lines()
             .filter_map(|line| serde_json::from_str(line).ok())
             .collect())
+    }
+}
+
+/// Whether the file is non-empty and its last byte is not a newline.
+fn ends_torn(file: &mut File) -> std::io::Result<bool> {
+    if file.metadata()?.len() == 0 {
+        return Ok(false);
+    }
+    file.seek(SeekFrom::End(-1))?;
+    let mut last = [0u8; 1];
+    file.read_exact(&mut last)?;
+    Ok(last[0] != b'\n')
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_torn_last_line_does_not_swallow_the_next_entry() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let entry = |index| TimingEntry::Timing {
+            index,
+            seconds: 0.5,
+            finished_unix: 1.0,
+        };
+        let mut log = TimingLog::open(dir.path()).expect("open");
+        log.append(&entry(0)).expect("append");
+        drop(log);
+        let path = dir.path().join(TIMINGS_FILE);
+        let mut bytes = std::fs::read(&path).expect("read");
+        bytes.extend_from_slice(b"{\"kind\":\"timing\",\"ind");
+        std::fs::write(&path, bytes).expect("write torn");
+        let mut log = TimingLog::open(dir.path()).expect("reopen");
+        log.append(&entry(1)).expect("append");
+        let read = TimingLog::read(dir.path()).expect("read back");
+        assert_eq!(read, vec![entry(0), entry(1)]);
     }
 }
