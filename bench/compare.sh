@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
-# Runs gemmule's trainer benchmarks (fast learner, and the candle-autograd learner
-# as the "before") and the PyTorch and scikit-learn references interleaved (ours,
+# Runs gemmule's trainer benchmarks B1-B4 (fast learner, and the candle-autograd
+# learner as the "before"), its conv/cell benchmarks B5-B6 (benches/cells.rs) and
+# the PyTorch (B1-B5) and scikit-learn (B1-B4) references interleaved (ours,
 # PyTorch, scikit-learn, repeated ROUNDS times), then prints, per benchmark, the
 # median over rounds of each implementation's median seconds per epoch, wall and
 # thread-CPU, and the ratios ours/theirs (below 1 means we are faster).
@@ -16,19 +17,26 @@ python="${PYTHON:-.venv-bench/bin/python}"
 out="target/bench-data/compare-$(date +%Y%m%d-%H%M%S).log"
 mkdir -p target/bench-data
 
-cargo bench --bench trainer --no-run
-# One build, then the same binary each round (also writes the data file).
-bench_binary=$(cargo bench --bench trainer --no-run --message-format=json 2>/dev/null \
-  | sed -n 's/.*"executable":"\([^"]*trainer-[^"]*\)".*/\1/p' | tail -1)
-if [[ -z "$bench_binary" ]]; then
-  echo "could not find the benchmark executable" >&2
+# One build, then the same binaries each round (they also write the data files).
+bench_executable() {
+  cargo bench --bench "$1" --no-run --message-format=json 2>/dev/null \
+    | sed -n "s/.*\"executable\":\"\([^\"]*$1-[^\"]*\)\".*/\1/p" | tail -1
+}
+cargo bench --bench trainer --bench cells --no-run
+bench_binary=$(bench_executable trainer)
+cells_binary=$(bench_executable cells)
+if [[ -z "$bench_binary" || -z "$cells_binary" ]]; then
+  echo "could not find the benchmark executables" >&2
   exit 1
 fi
+# Write both data files before the first reference run reads them.
+"$cells_binary" --runs 1 --only none > /dev/null
 
 echo "# $(nproc) cpus, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | xargs); load $(cut -d' ' -f1-3 /proc/loadavg)" | tee "$out"
 for round in $(seq 1 "$rounds"); do
   echo "# round $round" | tee -a "$out"
   "$bench_binary" --runs "$runs" --engine both --no-matmul | tee -a "$out"
+  "$cells_binary" --runs "$runs" | tee -a "$out"
   "$python" bench/reference/pytorch_bench.py --runs "$runs" --no-matmul | tee -a "$out"
   "$python" bench/reference/sklearn_bench.py --runs "$runs" --no-matmul | tee -a "$out"
 done
@@ -51,14 +59,17 @@ awk '
     for (i = 1; i <= k; i++) for (j = i + 1; j <= k; j++) if (a[j] < a[i]) { t = a[i]; a[i] = a[j]; a[j] = t }
     return (k % 2) ? a[(k + 1) / 2] : (a[k / 2] + a[k / 2 + 1]) / 2
   }
+  function ms(v) { return v < 0 ? "-" : sprintf("%.2f", v * 1000) }
+  function ratio(a, b) { return (a < 0 || b <= 0) ? "-" : sprintf("%.3f", a / b) }
   function row(label, values,   b, name, o, a, p, s) {
     print label
     printf "%-4s %12s %12s %12s %12s %10s %10s %10s\n", "name", "ours ms/ep", "before", "pytorch", "sklearn", "ours/torch", "ours/skl", "ours/before"
     for (b = 1; b <= 6; b++) {
       name = "B" b; if (!(name in benches)) continue
       o = med(values, name SUBSEP "gemmule-fast"); a = med(values, name SUBSEP "gemmule-autograd")
+      if (o < 0) o = med(values, name SUBSEP "gemmule")
       p = med(values, name SUBSEP "pytorch"); s = med(values, name SUBSEP "sklearn")
-      printf "%-4s %12.2f %12.2f %12.2f %12.2f %10.3f %10.3f %10.3f\n", name, o * 1000, a * 1000, p * 1000, s * 1000, (p > 0 ? o / p : 0), (s > 0 ? o / s : 0), (a > 0 ? o / a : 0)
+      printf "%-4s %12s %12s %12s %12s %10s %10s %10s\n", name, ms(o), ms(a), ms(p), ms(s), ratio(o, p), ratio(o, s), ratio(o, a)
     }
   }
   END {

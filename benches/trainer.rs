@@ -63,7 +63,7 @@ const BENCHES: [Bench; 4] = [
         batch: 8,
     },
 ];
-// B5 (conv net) and B6 (NASNet-style cell): reserved for the conv trainer; no numbers yet.
+// B5 (conv net) and B6 (reference cell genome) train on images: benches/cells.rs.
 
 struct Options {
     runs: usize,
@@ -365,8 +365,7 @@ fn main() {
             }
         }
     }
-    println!("B5  (conv net)         reserved: not implemented yet");
-    println!("B6  (NASNet-style cell) reserved: not implemented yet");
+    println!("# B5 (conv net) and B6 (reference cell genome): cargo bench --bench cells");
     if options.matmul {
         let (wall, cpu) = matmul_rate((1024, 1024, 1024), 5);
         println!("matmul 1024^3 f32, our GEMM path (1 thread): {wall:.1} GFLOP/s by wall time, {cpu:.1} by CPU time");

@@ -1,14 +1,18 @@
-"""PyTorch reference for gemmule's trainer benchmarks B1-B4 (benches/trainer.rs).
+"""PyTorch reference for gemmule's trainer benchmarks B1-B4 (benches/trainer.rs)
+and B5 (benches/cells.rs).
 
-Same data file (written by `cargo bench --bench trainer`), same networks
-(relu MLPs, PyTorch default init), batch sizes, 10 epochs, Adam lr 1e-3,
+Same data files (written by `cargo bench --bench trainer` and
+`cargo bench --bench cells`), same networks (relu MLPs; B5: conv 3x3 1->8
+pad 1 -> ReLU -> conv 3x3 8->16 pad 1 -> ReLU -> global average pool ->
+linear 16->10; PyTorch default init), batch sizes, 10 epochs, Adam lr 1e-3,
 mean softmax cross-entropy, a fresh random row order each epoch, no
 validation, one thread. Prints median/min/max seconds per epoch, samples/s,
 the forward/backward/optimizer split, the 1024^3 f32 matmul rate, and one
 `result ...` line per benchmark for bench/compare.sh.
 
 Usage: python pytorch_bench.py [--data target/bench-data/bench_4000x32.csv]
-       [--runs 5] [--only B1,B3] [--no-matmul]
+       [--images target/bench-data/bench_images_2000x8x8.csv]
+       [--runs 5] [--only B1,B3,B5] [--no-matmul]
 """
 
 import argparse
@@ -24,8 +28,10 @@ BENCHES = {
     "B2": ((256, 256), 64),
     "B3": ((256, 256), 256),
     "B4": ((64, 64), 8),
+    "B5": ("conv", 64),
 }
 EPOCHS = 10
+IMAGE_SIDE = 8
 
 
 def load(path):
@@ -44,10 +50,27 @@ def network(n_inputs, hidden, n_classes):
     return torch.nn.Sequential(*layers)
 
 
+def conv_network(n_classes):
+    """B5: two 3x3 convs (padding 1, with bias) and ReLUs, global average pool, linear head."""
+    return torch.nn.Sequential(
+        torch.nn.Unflatten(1, (1, IMAGE_SIDE, IMAGE_SIDE)),
+        torch.nn.Conv2d(1, 8, 3, padding=1),
+        torch.nn.ReLU(),
+        torch.nn.Conv2d(8, 16, 3, padding=1),
+        torch.nn.ReLU(),
+        torch.nn.AdaptiveAvgPool2d(1),
+        torch.nn.Flatten(),
+        torch.nn.Linear(16, n_classes),
+    )
+
+
 def run_once(x, y, hidden, batch, seed):
     """Wall seconds, thread CPU seconds and (forward, backward, optimizer) seconds for 10 epochs."""
     torch.manual_seed(seed)
-    model = network(x.shape[1], hidden, int(y.max()) + 1)
+    if hidden == "conv":
+        model = conv_network(int(y.max()) + 1)
+    else:
+        model = network(x.shape[1], hidden, int(y.max()) + 1)
     optimizer = torch.optim.Adam(model.parameters(), lr=1e-3)
     loss_fn = torch.nn.CrossEntropyLoss()
     split = [0.0, 0.0, 0.0]
@@ -88,19 +111,26 @@ def matmul_rate():
 def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--data", default="target/bench-data/bench_4000x32.csv")
+    parser.add_argument("--images", default="target/bench-data/bench_images_2000x8x8.csv")
     parser.add_argument("--runs", type=int, default=5)
     parser.add_argument("--only", default=None)
     parser.add_argument("--no-matmul", action="store_true")
     args = parser.parse_args()
     torch.set_num_threads(1)
-    x, y = load(args.data)
-    load_avg = " ".join(f"{v:.2f}" for v in os.getloadavg())
-    print(f"# PyTorch {torch.__version__}, 1 thread, {x.shape[0]}x{x.shape[1]}, {EPOCHS} epochs, Adam lr 1e-3; load average at start: {load_avg}")
-    print(f"{'name':<4} {'impl':<9} {'median s/ep':>11} {'min':>9} {'max':>9} {'cpu s/ep':>11} {'samples/s':>10} {'fwd ms/ep':>9} {'bwd ms/ep':>9} {'opt ms/ep':>9}")
     only = set(args.only.split(",")) if args.only else None
+    tables = {}
+    if only is None or only & {"B1", "B2", "B3", "B4"}:
+        tables["table"] = load(args.data)
+    if only is None or "B5" in only:
+        tables["images"] = load(args.images)
+    load_avg = " ".join(f"{v:.2f}" for v in os.getloadavg())
+    sizes = ", ".join(f"{name} {x.shape[0]}x{x.shape[1]}" for name, (x, _) in tables.items())
+    print(f"# PyTorch {torch.__version__}, 1 thread, {sizes}, {EPOCHS} epochs, Adam lr 1e-3; load average at start: {load_avg}")
+    print(f"{'name':<4} {'impl':<9} {'median s/ep':>11} {'min':>9} {'max':>9} {'cpu s/ep':>11} {'samples/s':>10} {'fwd ms/ep':>9} {'bwd ms/ep':>9} {'opt ms/ep':>9}")
     for name, (hidden, batch) in BENCHES.items():
         if only and name not in only:
             continue
+        x, y = tables["images" if hidden == "conv" else "table"]
         run_once(x, y, hidden, batch, 0)
         walls, cpus, split = [], [], [0.0, 0.0, 0.0]
         for run in range(max(args.runs, 1)):

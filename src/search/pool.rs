@@ -1,16 +1,21 @@
 //! Worker threads that evaluate candidates, one at a time each.
 //!
-//! Workers are detached: when a search stops early the pool is dropped, the
-//! workers finish the evaluation they are running, find the task queue
-//! closed and exit; their results are discarded.
+//! Candidates wait in a shared first-in-first-out queue, so workers start
+//! them in index order. Queued candidates that no worker has started can be
+//! taken back ([`WorkerPool::cancel_queued`]), which is how a session that
+//! runs out of time avoids training candidates it will not commit.
+//!
+//! Workers are detached: when the pool is dropped, the queue is emptied and
+//! closed, each worker finishes the evaluation it is running (its result is
+//! discarded) and exits.
 
 use super::evaluation::{EvalStatus, Evaluation, Evaluator};
 use crate::{Error, Result};
 use std::any::Any;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, VecDeque};
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::sync::mpsc::{channel, Receiver, RecvTimeoutError, Sender};
-use std::sync::{Arc, Mutex};
+use std::sync::{Arc, Condvar, Mutex, MutexGuard};
 use std::time::{Duration, Instant};
 
 /// Stack size of a worker thread (the main thread's usual size; deep
@@ -32,38 +37,96 @@ pub(crate) struct Finished {
     pub finished_unix: f64,
 }
 
+/// The tasks no worker has started yet, and whether the pool is gone.
+struct QueueState<G> {
+    tasks: VecDeque<Task<G>>,
+    closed: bool,
+}
+
+/// The queue shared by the pool and its workers.
+struct TaskQueue<G> {
+    state: Mutex<QueueState<G>>,
+    ready: Condvar,
+}
+
+impl<G> TaskQueue<G> {
+    /// The queue state; a worker that panicked while holding the lock
+    /// cannot have left it half-changed (every change is one push, pop or clear).
+    fn lock(&self) -> MutexGuard<'_, QueueState<G>> {
+        self.state
+            .lock()
+            .unwrap_or_else(|poisoned| poisoned.into_inner())
+    }
+
+    /// The next task, waiting while the queue is empty; `None` once closed.
+    fn next(&self) -> Option<Task<G>> {
+        let mut state = self.lock();
+        loop {
+            if state.closed {
+                return None;
+            }
+            if let Some(task) = state.tasks.pop_front() {
+                return Some(task);
+            }
+            state = self
+                .ready
+                .wait(state)
+                .unwrap_or_else(|poisoned| poisoned.into_inner());
+        }
+    }
+}
+
 /// The pool: a task queue shared by the workers, and their results.
 pub(crate) struct WorkerPool<G> {
-    tasks: Sender<Task<G>>,
+    queue: Arc<TaskQueue<G>>,
     results: Receiver<Finished>,
 }
 
 impl<G: Send + 'static> WorkerPool<G> {
     /// Starts `workers` threads evaluating with `evaluator`.
     pub fn start<E: Evaluator<G> + 'static>(evaluator: Arc<E>, workers: usize) -> Result<Self> {
-        let (tasks, queue) = channel::<Task<G>>();
+        let queue = Arc::new(TaskQueue {
+            state: Mutex::new(QueueState {
+                tasks: VecDeque::new(),
+                closed: false,
+            }),
+            ready: Condvar::new(),
+        });
         let (report, results) = channel();
-        let queue = Arc::new(Mutex::new(queue));
+        let pool = WorkerPool { queue, results };
         for number in 0..workers {
-            let (evaluator, queue, report) = (evaluator.clone(), queue.clone(), report.clone());
+            let (evaluator, queue, report) =
+                (evaluator.clone(), pool.queue.clone(), report.clone());
             std::thread::Builder::new()
                 .name(format!("gemmule-eval-{number}"))
                 .stack_size(WORKER_STACK_BYTES)
                 .spawn(move || work(evaluator.as_ref(), &queue, &report))
                 .map_err(|e| Error::internal(format!("cannot start a worker thread: {e}")))?;
         }
-        Ok(WorkerPool { tasks, results })
+        Ok(pool)
     }
 
-    /// Queues a candidate.
+    /// Queues a candidate; workers start queued candidates in the order they were queued.
     pub fn dispatch(&self, index: u64, genome: G, seed: u64) -> Result<()> {
-        self.tasks
-            .send(Task {
-                index,
-                genome,
-                seed,
-            })
-            .map_err(|_| Error::internal("the evaluation workers are gone"))
+        let mut state = self.queue.lock();
+        if state.closed {
+            return Err(Error::internal("the evaluation workers are gone"));
+        }
+        state.tasks.push_back(Task {
+            index,
+            genome,
+            seed,
+        });
+        drop(state);
+        self.queue.ready.notify_one();
+        Ok(())
+    }
+
+    /// Takes back every queued candidate no worker has started, returning
+    /// their indices in queue order; their results will never arrive.
+    pub fn cancel_queued(&self) -> Vec<u64> {
+        let mut state = self.queue.lock();
+        state.tasks.drain(..).map(|task| task.index).collect()
     }
 
     /// Waits up to `timeout` for a result and files it into `finished`.
@@ -88,19 +151,24 @@ impl<G: Send + 'static> WorkerPool<G> {
     }
 }
 
+impl<G> Drop for WorkerPool<G> {
+    /// Empties and closes the queue, so idle workers exit now and busy ones
+    /// after their current evaluation, instead of training abandoned candidates.
+    fn drop(&mut self) {
+        let mut state = self.queue.lock();
+        state.tasks.clear();
+        state.closed = true;
+        drop(state);
+        self.queue.ready.notify_all();
+    }
+}
+
 fn work<G, E: Evaluator<G> + ?Sized>(
     evaluator: &E,
-    queue: &Mutex<Receiver<Task<G>>>,
+    queue: &TaskQueue<G>,
     report: &Sender<Finished>,
 ) {
-    loop {
-        let task = {
-            let receiver = queue
-                .lock()
-                .unwrap_or_else(|poisoned| poisoned.into_inner());
-            receiver.recv()
-        };
-        let Ok(task) = task else { return };
+    while let Some(task) = queue.next() {
         let started = Instant::now();
         let outcome = catch_unwind(AssertUnwindSafe(|| {
             evaluator.evaluate(&task.genome, task.seed)

@@ -1,12 +1,18 @@
 //! The deterministic parallel scheduler.
 //!
 //! Proposals are made in index order; proposal k is made only after the
-//! results `0..=k - jobs` were committed (in index order) and before any
+//! results `0..=k - lag` were committed (in index order) and before any
 //! later one is, so the strategy's view never depends on which worker
-//! finishes first. Results are committed strictly in index order; early
-//! finishers wait in a buffer. On resume, the first `done` proposals are
-//! re-derived and checked against the journal instead of being evaluated,
-//! and their journaled results are observed in the same order.
+//! finishes first. The lag ([`proposal_lag`]) is 1 with one job (a
+//! sequential search) and 3 × jobs with more: up to `lag` candidates are in
+//! flight, `jobs` of them training and the rest queued, so a worker that
+//! finishes early starts the next queued candidate instead of waiting for a
+//! slower one to be committed. Results are committed strictly in index
+//! order; early finishers wait in a buffer. When a time budget runs out,
+//! queued candidates no worker has started are dropped (they were never
+//! journaled). On resume, the first `done` proposals are re-derived and
+//! checked against the journal instead of being evaluated, and their
+//! journaled results are observed in the same order.
 
 use super::evaluation::Evaluator;
 use super::journal::Journal;
@@ -26,6 +32,26 @@ use std::time::{Duration, Instant};
 
 /// How long the scheduler waits for a result before rechecking the stop flag.
 const POLL: Duration = Duration::from_millis(20);
+
+/// Candidates in flight per worker when there are several workers (see [`proposal_lag`]).
+const IN_FLIGHT_PER_JOB: u64 = 3;
+
+/// The information lag of a run with `jobs` workers: proposal k sees the
+/// results `0..=k - lag`. One job gives 1 (each proposal sees every earlier
+/// result). With J ≥ 2 jobs it is 3·J. A lag of J made a worker that
+/// finished early wait until the slower candidate before it was committed;
+/// with the spread of candidate times in a digits search (0.02–0.85 s), that
+/// idled workers for about a fifth of the run at J = 2 (parallel efficiency
+/// 0.78), while 3·J keeps them busy (≈ 0.98 in a simulation of the measured
+/// times; benches/search_throughput.rs measures it).
+pub(crate) fn proposal_lag(jobs: usize) -> u64 {
+    let jobs = jobs.max(1) as u64;
+    if jobs == 1 {
+        1
+    } else {
+        IN_FLIGHT_PER_JOB.saturating_mul(jobs)
+    }
+}
 
 /// A proposal that was made and not yet committed.
 struct Candidate<G> {
@@ -52,6 +78,8 @@ pub(crate) struct Driver<'a, 'c, S: SearchSpace, E> {
     next_commit: u64,
     best: Option<(u64, f64)>,
     deadline: Option<Instant>,
+    /// Proposal k waits for the results `0..=k - lag`.
+    lag: u64,
 }
 
 /// Where a session writes and what it continues from.
@@ -102,6 +130,7 @@ where
             next_commit: 0,
             best: None,
             deadline,
+            lag: proposal_lag(plan.jobs),
         })
     }
 
@@ -135,17 +164,11 @@ where
 
     /// Runs the session until the budget is spent, time is up or the stop flag is set.
     pub fn run(&mut self) -> Result<SearchEnding> {
-        let window = self.plan.jobs as u64;
         loop {
             if self.stopped() {
                 return self.wind_down();
             }
-            while self.next_proposal < self.limit()
-                && self.next_proposal < self.next_commit + window
-                && self.may_propose()
-            {
-                self.propose_next()?;
-            }
+            self.fill_window()?;
             if self.next_commit == self.next_proposal {
                 return Ok(self.ending());
             }
@@ -170,14 +193,46 @@ where
         Ok(self.ending())
     }
 
+    /// Makes every proposal the committed results allow; once the time
+    /// budget is spent, takes back the queued candidates no worker started.
+    fn fill_window(&mut self) -> Result<()> {
+        while self.next_proposal < self.limit()
+            && self.next_proposal < self.next_commit + self.lag
+            && self.may_propose()
+        {
+            self.propose_next()?;
+        }
+        if self.time_up() && self.next_proposal > self.replay.len() as u64 {
+            self.drop_queued();
+        }
+        Ok(())
+    }
+
+    /// Forgets the proposals whose candidates are still queued; they were
+    /// never journaled, so a resumed run proposes them again identically.
+    fn drop_queued(&mut self) {
+        let cancelled = self.pool.cancel_queued();
+        let Some(&first) = cancelled.iter().min() else {
+            return;
+        };
+        for index in &cancelled {
+            self.in_flight.remove(index);
+        }
+        self.next_proposal = first;
+        self.ids
+            .truncate(usize::try_from(first).unwrap_or(usize::MAX));
+    }
+
+    fn time_up(&self) -> bool {
+        self.deadline
+            .is_some_and(|deadline| Instant::now() >= deadline)
+    }
+
     fn may_propose(&self) -> bool {
         if self.next_proposal < self.replay.len() as u64 {
             return true;
         }
-        let time_up = self
-            .deadline
-            .is_some_and(|deadline| Instant::now() >= deadline);
-        !self.stopped() && !time_up
+        !self.stopped() && !self.time_up()
     }
 
     fn propose_next(&mut self) -> Result<()> {
@@ -262,17 +317,20 @@ where
             best_epoch: evaluation.best_epoch,
             message: evaluation.message.clone(),
         };
+        self.context
+            .strategy
+            .observe(index, &record.genome, &evaluation);
+        self.note_best(index, record.objective);
+        self.next_commit += 1;
+        // Queue what this result lets the strategy propose before the
+        // journal write (which syncs to disk), so no worker waits for it.
+        self.fill_window()?;
         self.journal.append_evaluation(&record)?;
         self.timings.append(&TimingEntry::Timing {
             index,
             seconds: result.seconds,
             finished_unix: result.finished_unix,
         })?;
-        self.context
-            .strategy
-            .observe(index, &record.genome, &evaluation);
-        self.note_best(index, record.objective);
-        self.next_commit += 1;
         let best = self.best.map(|(_, value)| value);
         let budget = self.plan.budget.evaluations;
         self.context

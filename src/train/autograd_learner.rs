@@ -1,8 +1,11 @@
 //! A [`Learner`] for any candle network, through candle's autograd.
 
+use std::time::Instant;
+
 use candle_core::{Device, Tensor, Var};
 use rand::RngCore;
 
+use super::fast_mlp::PhaseTimes;
 use super::gradients::{gradients_of_logits, variable_tensors};
 use super::learner::{Learner, Snapshot};
 use super::optimizer::OptimizerState;
@@ -77,6 +80,7 @@ pub struct AutogradLearner<N: AutogradNetwork> {
     network: N,
     variables: Vec<Var>,
     optimizer: OptimizerState,
+    timing: Option<PhaseTimes>,
 }
 
 impl<N: AutogradNetwork> AutogradLearner<N> {
@@ -90,7 +94,19 @@ impl<N: AutogradNetwork> AutogradLearner<N> {
             network,
             variables,
             optimizer,
+            timing: None,
         })
+    }
+
+    /// Starts adding up the time spent in each phase of [`Learner::train_step`]
+    /// (forward pass; loss and back-propagation; optimiser update), for benchmarks.
+    pub fn enable_timing(&mut self) {
+        self.timing = Some(PhaseTimes::default());
+    }
+
+    /// Time spent per phase since [`Self::enable_timing`] (`None` before).
+    pub fn phase_times(&self) -> Option<PhaseTimes> {
+        self.timing
     }
 
     /// The network being trained.
@@ -131,13 +147,22 @@ impl<N: AutogradNetwork> Learner for AutogradLearner<N> {
         rows: usize,
         rng: &mut dyn RngCore,
     ) -> Result<f32> {
+        let started = Instant::now();
         let input = self.input_tensor(x, rows)?;
         let labels = Tensor::from_slice(labels, labels.len(), &Device::Cpu)?;
         let logits = self.network.forward(&input, true, rng)?;
+        let forward_done = Instant::now();
         let parameters = variable_tensors(&self.variables);
         let gradients = gradients_of_logits(&logits, &labels, &parameters)?;
+        let backward_done = Instant::now();
         if gradients.loss.is_finite() {
             self.optimizer.step(&parameters, &gradients.tensors)?;
+        }
+        if let Some(timing) = &mut self.timing {
+            timing.forward += forward_done - started;
+            timing.backward += backward_done - forward_done;
+            timing.optimizer += backward_done.elapsed();
+            timing.steps += 1;
         }
         Ok(gradients.loss)
     }

@@ -40,6 +40,7 @@ mod trainer;
 
 pub use adam::{adam_step, AdamSettings};
 pub use autograd_learner::{AutogradLearner, AutogradNetwork};
+pub(crate) use evaluate::softmax_rows;
 pub use fast_mlp::{matmul_row_major, FastMlpLearner, PhaseTimes};
 pub use fit::{fit, FitOutcome};
 pub use gradients::{compute_gradients, Gradients};
@@ -47,6 +48,7 @@ pub use learner::{Learner, Snapshot};
 pub use model::TrainedModel;
 pub use objective::Objective;
 pub use optimizer::OptimizerState;
+pub(crate) use scores::argmax_lowest_on_ties;
 pub use scores::{score, Scores};
 pub use settings::{TrainOutcome, TrainSettings, TrainStatus};
 pub use sgd::{sgd_momentum_step, SGD_MOMENTUM};

@@ -9,15 +9,15 @@ use super::scores::Scores;
 #[serde(rename_all = "snake_case")]
 #[value(rename_all = "snake_case")]
 pub enum Objective {
-    /// [`Scores::accuracy`].
+    /// Accuracy: the share of correctly classified rows.
     Accuracy,
-    /// [`Scores::balanced_accuracy`].
+    /// Balanced accuracy: the mean of the per-class recalls.
     #[value(alias = "balanced-accuracy")]
     BalancedAccuracy,
-    /// [`Scores::macro_f1`].
+    /// Macro F1: the mean of the per-class F1 scores.
     #[value(alias = "macro-f1")]
     MacroF1,
-    /// [`Scores::log_loss`], negated so that higher is better.
+    /// Log loss (mean cross-entropy), negated so that higher is better.
     #[value(alias = "log-loss")]
     LogLoss,
 }

@@ -15,7 +15,7 @@ use candle_core::{CpuStorage, CustomOp2, CustomOp3, Layout, Shape, Tensor};
 
 use super::checks::ConvGeometry;
 use super::cpu_slices::contiguous_f32;
-use super::im2col::{col2im_add, im2col};
+use super::im2col::{col2im_add, im2col, TapPlans};
 use super::matmul::{matmul_into, MatrixView, MatrixViewMut};
 use super::scratch;
 
@@ -38,10 +38,14 @@ struct Conv2dIm2col {
     geometry: ConvGeometry,
 }
 
-/// Gradients of input and weight packed in one vector: arguments (input,
-/// grad_output, weight); no backward of its own.
+/// Gradients of input (when `input_grad`) and weight packed in one vector:
+/// arguments (input, grad_output, weight); no backward of its own.
 struct Conv2dIm2colGrad {
     geometry: ConvGeometry,
+    /// Whether the input needs a gradient (it does not when it is data, e.g. a
+    /// network's first convolution): without it, the input-gradient gemm and
+    /// col2im are skipped and the packed vector holds only the weight gradient.
+    input_grad: bool,
 }
 
 /// Lengths of the input, weight and output of `g`.
@@ -107,11 +111,11 @@ impl BlockGroup {
     }
 
     /// Unfolds the block's images side by side into `columns` (patch_len × width).
-    fn unfold(&self, g: &ConvGeometry, x: &[f32], columns: &mut [f32]) {
+    fn unfold(&self, g: &ConvGeometry, plans: &TapPlans, x: &[f32], columns: &mut [f32]) {
         let (width, group_len) = (self.width(g), g.group_in() * g.in_plane());
         for b in 0..self.images {
             let image = &x[self.input_start(g, b)..][..group_len];
-            im2col(g, image, &mut columns[b * g.out_plane()..], width);
+            im2col(g, plans, image, &mut columns[b * g.out_plane()..], width);
         }
     }
 }
@@ -141,11 +145,12 @@ impl CustomOp2 for Conv2dIm2col {
         let widest = BlockGroup::widest(g);
         let mut column_buffer = scratch::take(g.patch_len() * widest);
         let mut product_buffer = scratch::take(g.group_out() * widest);
+        let plans = TapPlans::new(g);
         for block in BlockGroup::all(g) {
             let width = block.width(g);
             let columns = &mut column_buffer[..g.patch_len() * width];
             let product = &mut product_buffer[..g.group_out() * width];
-            block.unfold(g, x, columns);
+            block.unfold(g, &plans, x, columns);
             matmul_into(
                 MatrixViewMut::row_major(product, g.group_out(), width),
                 block.weights(g, w),
@@ -175,11 +180,18 @@ impl CustomOp2 for Conv2dIm2col {
     ) -> candle_core::Result<(Option<Tensor>, Option<Tensor>)> {
         let g = self.geometry;
         let (x_len, w_len, _) = lengths(&g);
+        let input_grad = x.track_op();
         let packed = x.contiguous()?.apply_op3_no_bwd(
             &grad_output.contiguous()?,
             &w.contiguous()?,
-            &Conv2dIm2colGrad { geometry: g },
+            &Conv2dIm2colGrad {
+                geometry: g,
+                input_grad,
+            },
         )?;
+        if !input_grad {
+            return Ok((None, Some(packed.reshape(w.shape())?)));
+        }
         let grad_x = packed.narrow(0, 0, x_len)?.reshape(x.shape())?;
         let grad_w = packed.narrow(0, x_len, w_len)?.reshape(w.shape())?;
         Ok((Some(grad_x), Some(grad_w)))
@@ -206,20 +218,22 @@ impl CustomOp3 for Conv2dIm2colGrad {
         let grad = contiguous_f32(grad_storage, grad_layout, out_len, self.name())?;
         let w = contiguous_f32(w_storage, w_layout, w_len, self.name())?;
         let (patch, plane) = (g.patch_len(), g.out_plane());
-        // grad_x first, then grad_w, in one vector.
-        let mut packed = vec![0.0f32; x_len + w_len];
-        let (grad_x, grad_w) = packed.split_at_mut(x_len);
+        // grad_x first (when wanted), then grad_w, in one vector.
+        let x_part = if self.input_grad { x_len } else { 0 };
+        let mut packed = vec![0.0f32; x_part + w_len];
+        let (grad_x, grad_w) = packed.split_at_mut(x_part);
         let widest = BlockGroup::widest(g);
         let mut column_buffer = scratch::take(patch * widest);
         let mut grad_column_buffer = scratch::take(patch * widest);
         let mut grad_block_buffer = scratch::take(g.group_out() * widest);
         let mut weight_grads_started = vec![false; g.groups];
+        let plans = TapPlans::new(g);
         for block in BlockGroup::all(g) {
             let width = block.width(g);
             let columns = &mut column_buffer[..patch * width];
             let grad_columns = &mut grad_column_buffer[..patch * width];
             let grad_block = &mut grad_block_buffer[..g.group_out() * width];
-            block.unfold(g, x, columns);
+            block.unfold(g, &plans, x, columns);
             for (c, row) in grad_block.chunks_exact_mut(width).enumerate() {
                 for (b, image_row) in row.chunks_exact_mut(plane).enumerate() {
                     let start = block.output_start(g, b, c);
@@ -242,6 +256,9 @@ impl CustomOp3 for Conv2dIm2colGrad {
             )
             .map_err(to_candle)?;
             *started = true;
+            if !self.input_grad {
+                continue;
+            }
             // grad_columns (patch × width) = Wᵀ (patch × group_out) · grad (group_out × width)
             matmul_into(
                 MatrixViewMut::row_major(grad_columns, patch, width),
@@ -253,12 +270,12 @@ impl CustomOp3 for Conv2dIm2colGrad {
             let group_len = g.group_in() * g.in_plane();
             for b in 0..block.images {
                 let image = &mut grad_x[block.input_start(g, b)..][..group_len];
-                col2im_add(g, &mut grad_columns[b * plane..], width, image);
+                col2im_add(g, &plans, &mut grad_columns[b * plane..], width, image);
             }
         }
         for buffer in [column_buffer, grad_column_buffer, grad_block_buffer] {
             scratch::recycle(buffer);
         }
-        Ok((CpuStorage::F32(packed), Shape::from(x_len + w_len)))
+        Ok((CpuStorage::F32(packed), Shape::from(x_part + w_len)))
     }
 }

@@ -27,24 +27,28 @@
 mod avg_pool_kernel;
 mod batch_norm;
 mod batch_norm_kernel;
+mod channel_bias_kernel;
 mod checks;
 mod conv_kernel;
 mod cpu_slices;
 mod depthwise_kernel;
 mod im2col;
+#[cfg(test)]
+mod kernel_tests;
 pub mod kernels;
 mod matmul;
 mod max_pool_kernel;
 mod pool_geometry;
 pub mod reference;
+mod relu_kernel;
 mod scratch;
 
 use candle_core::Tensor;
 
 pub use batch_norm::BatchNorm2d;
 
-use crate::Result;
-use checks::{pool3x3_geometry, ConvGeometry};
+use crate::{Error, Result};
+use checks::{f32_dims4, pool3x3_geometry, ConvGeometry};
 
 /// x: (N, C_in, H, W) f32; w: (C_out, C_in / groups, KH, KW); returns
 /// (N, C_out, H_out, W_out) with H_out = ⌊(H + 2·padding − dilation·(KH − 1) − 1) / stride⌋ + 1
@@ -83,4 +87,34 @@ pub fn avg_pool3x3(x: &Tensor, stride: usize) -> Result<Tensor> {
 /// `mean` is already fast here, ~40 µs forward + backward, so no custom kernel.)
 pub fn global_avg_pool(x: &Tensor) -> Result<Tensor> {
     reference::global_avg_pool(x)
+}
+
+/// `max(x, 0)` elementwise for an f32 tensor of any shape. Differentiable,
+/// with candle's convention (the gradient passes at x = 0) and bit-identical
+/// to `Tensor::relu` forward and backward, but its backward is one pass
+/// instead of four tensor ops.
+pub fn relu(x: &Tensor) -> Result<Tensor> {
+    if x.dtype() != candle_core::DType::F32 {
+        return Err(Error::input(format!(
+            "relu input must be f32, got {:?}",
+            x.dtype()
+        )));
+    }
+    Ok(relu_kernel::relu_kernel(x)?)
+}
+
+/// x (N, C, H, W) f32 plus `bias[c]` (bias: f32 of shape (C)) on every cell
+/// of channel c: the bias of a convolution. Differentiable in both; the
+/// bias gradient is the per-channel sum of the output gradient.
+pub fn add_channel_bias(x: &Tensor, bias: &Tensor) -> Result<Tensor> {
+    let dims = f32_dims4(x, "add_channel_bias input")?;
+    let channels = dims.1;
+    if bias.dtype() != candle_core::DType::F32 || bias.dims() != [channels] {
+        return Err(Error::input(format!(
+            "add_channel_bias needs an f32 bias of shape ({channels}) for {channels} channels, got {:?} of shape {:?}",
+            bias.dtype(),
+            bias.dims()
+        )));
+    }
+    Ok(channel_bias_kernel::add_channel_bias_kernel(x, bias, dims)?)
 }

@@ -65,6 +65,18 @@ pub fn global_avg_pool(x: &Tensor) -> Result<Tensor> {
     Ok(x.mean((2, 3))?)
 }
 
+/// Same contract as [`super::relu`]: candle's `Tensor::relu`.
+pub fn relu(x: &Tensor) -> Result<Tensor> {
+    Ok(x.relu()?)
+}
+
+/// Same contract as [`super::add_channel_bias`]: candle's `broadcast_add`
+/// of the bias reshaped to (1, C, 1, 1).
+pub fn add_channel_bias(x: &Tensor, bias: &Tensor) -> Result<Tensor> {
+    let (_, c, _, _) = super::checks::f32_dims4(x, "add_channel_bias input")?;
+    Ok(x.broadcast_add(&bias.reshape((1, c, 1, 1))?)?)
+}
+
 /// Batch normalisation of `x` (N, C, H, W) with `gamma` and `beta` of shape
 /// (C), from candle tensor ops: with `running = None` the batch's own mean
 /// and biased variance are used (training mode), otherwise the given
