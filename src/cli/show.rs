@@ -1,6 +1,7 @@
 //! `gemmule show`: a run at a glance, read from its journal only.
 
 use super::args::ShowArgs;
+use super::show_json::{status_counts, ShowDocument};
 use crate::render::{lineage, lineage_lines, pareto_front, DrawableGenome};
 use crate::search::{
     EvalStatus, EvaluationRecord, Journal, JournalContents, RunHeader, RunSummary, TimingEntry,
@@ -9,21 +10,30 @@ use crate::search::{
 use crate::Error;
 use anyhow::Result;
 use serde_json::Value;
-use std::collections::BTreeMap;
+use std::path::Path;
 
 /// Prints the summary of the run in `args.run`: settings, leaderboard,
 /// best-so-far curve, the drawn architecture (the best, or `--index`) with its
 /// lineage, and the Pareto front; writes `--dot` / `--svg` files when asked.
+/// With `--json` the same facts go to standard output as one JSON document
+/// (docs/json-output.md) and nothing else is printed there.
 pub fn show(args: &ShowArgs) -> Result<i32> {
     let run = args.run.as_path();
-    let top = args.top;
     let ascii = args.ascii || !utf8_terminal();
-    let contents: JournalContents<Value> = Journal::read(&Journal::path_in(run))?;
+    let journal = Journal::path_in(run);
+    if !journal.exists() {
+        return Err(Error::input(format!(
+            "{}: no run here (there is no {}); give a run directory made by `gemmule search`",
+            run.display(),
+            journal.display()
+        ))
+        .into());
+    }
+    let contents: JournalContents<Value> = Journal::read(&journal)?;
     for w in &contents.warnings {
         eprintln!("gemmule: warning: {w}");
     }
-    let h = &contents.header;
-    let summary = RunSummary::new(&contents.evaluations, top);
+    let summary = RunSummary::new(&contents.evaluations, args.top);
     let chosen = match args.index {
         Some(index) => Some(
             contents
@@ -40,7 +50,38 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
         ),
         None => summary.best.as_ref(),
     };
-    let seconds: f64 = TimingLog::read(run)
+    if chosen.is_none() && (args.dot.is_some() || args.svg.is_some()) {
+        return Err(Error::input(
+            "no evaluation is scored yet, so there is no best architecture to draw; \
+             pick one with --index N",
+        )
+        .into());
+    }
+    let seconds = training_seconds(run);
+    if args.json {
+        if let Some(record) = chosen {
+            let genome = drawable(record)?;
+            write_drawings(args, &contents.header, &genome)?;
+        }
+        let document = ShowDocument::new(
+            run,
+            &contents,
+            &summary,
+            chosen,
+            args.index.is_some(),
+            seconds,
+        );
+        let text = serde_json::to_string_pretty(&document)
+            .map_err(|e| Error::internal(format!("show --json: {e}")))?;
+        println!("{text}");
+        return Ok(0);
+    }
+    print_text(args, run, &contents, &summary, chosen, seconds, ascii)
+}
+
+/// Training seconds summed over the timed evaluations of `timings.jsonl` (0 when missing).
+fn training_seconds(run: &Path) -> f64 {
+    TimingLog::read(run)
         .map(|entries| {
             entries
                 .iter()
@@ -50,7 +91,31 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
                 })
                 .sum()
         })
-        .unwrap_or(0.0);
+        .unwrap_or(0.0)
+}
+
+/// `102 train / 24 validation / 24 test` from the header's `rows` block.
+fn rows_text(rows: Option<&Value>) -> String {
+    let count = |key: &str| rows.and_then(|r| r.get(key)).and_then(Value::as_u64);
+    match (count("train"), count("valid"), count("test")) {
+        (Some(train), Some(valid), Some(test)) => {
+            format!("{train} train / {valid} validation / {test} test")
+        }
+        _ => rows.map(|r| r.to_string()).unwrap_or_else(|| "?".into()),
+    }
+}
+
+/// The text form of `show`.
+fn print_text(
+    args: &ShowArgs,
+    run: &Path,
+    contents: &JournalContents<Value>,
+    summary: &RunSummary<Value>,
+    chosen: Option<&EvaluationRecord<Value>>,
+    seconds: f64,
+    ascii: bool,
+) -> Result<i32> {
+    let h = &contents.header;
     let objective = h
         .trainer
         .get("objective")
@@ -61,12 +126,25 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
         "strategy {} {}, seed {}, jobs {}, budget {} evaluations",
         h.strategy.name, h.strategy.settings, h.seed, h.jobs, h.budget.evaluations
     );
-    if let Some(lambda) = h.trainer.get("size_penalty").and_then(|v| v.as_f64()) {
-        println!("ranked by validation {objective} - {lambda}*log10(params) (size penalty)");
+    let encoding = h
+        .space
+        .get("encoding")
+        .and_then(Value::as_str)
+        .unwrap_or("layers");
+    match h.trainer.get("size_penalty").and_then(|v| v.as_f64()) {
+        Some(lambda) => println!(
+            "encoding {encoding}; ranked by validation {objective} - {lambda}*log10(params) (size penalty)"
+        ),
+        None => println!("encoding {encoding}; ranked by validation {objective}"),
     }
     if let Some(source) = h.data.get("source") {
+        let classes = h
+            .data
+            .get("classes")
+            .and_then(Value::as_array)
+            .map_or(String::new(), |c| format!(", {} classes", c.len()));
         println!(
-            "data {} (sha256 {}), rows {}",
+            "data {} (sha256 {}), rows {}{classes}",
             source.get("path").and_then(|p| p.as_str()).unwrap_or("?"),
             h.data
                 .get("fingerprint")
@@ -75,20 +153,10 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
                     let short: String = f.chars().take(12).collect();
                     format!("{short}{}", if ascii { "..." } else { "…" })
                 }),
-            h.data
-                .get("rows")
-                .map(|r| r.to_string())
-                .unwrap_or_default()
+            rows_text(h.data.get("rows"))
         );
     }
-    let mut statuses: BTreeMap<String, usize> = BTreeMap::new();
-    for r in &contents.evaluations {
-        let name = serde_json::to_value(r.status)
-            .ok()
-            .and_then(|v| v.as_str().map(String::from))
-            .unwrap_or_default();
-        *statuses.entry(name).or_default() += 1;
-    }
+    let statuses = status_counts(&contents.evaluations);
     println!(
         "{} evaluations ({}), {:.1} s of training summed over candidates",
         summary.evaluations,
@@ -128,7 +196,25 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
     }
     println!();
     println!("best so far by evaluation:");
-    let n = summary.best_so_far.len();
+    print_curve(&summary.best_so_far);
+    if let Some(record) = chosen {
+        show_architecture(args, h, &contents.evaluations, record, ascii)?;
+    }
+    show_pareto_front(&contents.evaluations, objective);
+    let failed = contents
+        .evaluations
+        .iter()
+        .filter(|r| r.status == EvalStatus::Failed)
+        .count();
+    if failed > 0 {
+        println!("\n{failed} evaluation(s) failed; their messages are in the journal");
+    }
+    Ok(0)
+}
+
+/// About ten marks of the best-so-far curve, wrapped to the text width.
+fn print_curve(best_so_far: &[Option<f64>]) {
+    let n = best_so_far.len();
     let step = (n / 10).max(1);
     let mut marks: Vec<usize> = (step..=n).step_by(step).collect();
     if marks.last() != Some(&n) && n > 0 {
@@ -139,7 +225,7 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
         .map(|&m| {
             format!(
                 "{m}: {}",
-                summary.best_so_far[m - 1].map_or("-".into(), |v| format!("{v:.4}"))
+                best_so_far[m - 1].map_or("-".into(), |v| format!("{v:.4}"))
             )
         })
         .collect();
@@ -155,27 +241,6 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
         row.push_str(&entry);
     }
     println!("  {row}");
-    match chosen {
-        Some(record) => show_architecture(args, h, &contents.evaluations, record, ascii)?,
-        None if args.dot.is_some() || args.svg.is_some() => {
-            return Err(Error::input(
-                "no evaluation is scored yet, so there is no best architecture to draw; \
-                 pick one with --index N",
-            )
-            .into())
-        }
-        None => {}
-    }
-    show_pareto_front(&contents.evaluations, objective);
-    let failed = contents
-        .evaluations
-        .iter()
-        .filter(|r| r.status == EvalStatus::Failed)
-        .count();
-    if failed > 0 {
-        println!("\n{failed} evaluation(s) failed; their messages are in the journal");
-    }
-    Ok(0)
 }
 
 /// Feature and class counts recorded in the journal header, when known.
@@ -190,6 +255,28 @@ fn data_counts(header: &RunHeader) -> (Option<usize>, Option<usize>) {
     (count("features"), count("classes"))
 }
 
+/// The genome of `record`, ready to draw.
+fn drawable(record: &EvaluationRecord<Value>) -> Result<DrawableGenome> {
+    Ok(DrawableGenome::from_value(
+        &record.genome,
+        &format!("journal evaluation {}", record.index),
+    )?)
+}
+
+/// Writes the `--dot` / `--svg` files of `genome` (messages on standard error).
+fn write_drawings(args: &ShowArgs, header: &RunHeader, genome: &DrawableGenome) -> Result<()> {
+    let (n_inputs, n_classes) = data_counts(header);
+    if let Some(path) = &args.dot {
+        crate::fsio::write_atomic(path, genome.dot(n_inputs, n_classes).as_bytes())?;
+        eprintln!("architecture graph written to {} (DOT)", path.display());
+    }
+    if let Some(path) = &args.svg {
+        crate::fsio::write_atomic(path, genome.svg(n_inputs, n_classes).as_bytes())?;
+        eprintln!("architecture drawing written to {} (SVG)", path.display());
+    }
+    Ok(())
+}
+
 /// Draws `record`'s genome, writes the requested DOT / SVG files, and lists its lineage.
 fn show_architecture(
     args: &ShowArgs,
@@ -198,10 +285,7 @@ fn show_architecture(
     record: &EvaluationRecord<Value>,
     ascii: bool,
 ) -> Result<()> {
-    let genome = DrawableGenome::from_value(
-        &record.genome,
-        &format!("journal evaluation {}", record.index),
-    )?;
+    let genome = drawable(record)?;
     let (n_inputs, n_classes) = data_counts(header);
     println!();
     let which = if args.index.is_some() {
@@ -214,14 +298,7 @@ fn show_architecture(
         record.index, record.id
     );
     print!("{}", genome.text(n_inputs, n_classes, ascii));
-    if let Some(path) = &args.dot {
-        crate::fsio::write_atomic(path, genome.dot(n_inputs, n_classes).as_bytes())?;
-        eprintln!("architecture graph written to {} (DOT)", path.display());
-    }
-    if let Some(path) = &args.svg {
-        crate::fsio::write_atomic(path, genome.svg(n_inputs, n_classes).as_bytes())?;
-        eprintln!("architecture drawing written to {} (SVG)", path.display());
-    }
+    write_drawings(args, header, &genome)?;
     let steps = lineage(records, record.index);
     println!();
     println!(
