@@ -1,22 +1,31 @@
 //! A saved model: weights (safetensors) plus everything needed to predict
-//! from raw CSV rows (genome, preprocessing, class names) in JSON.
+//! from raw CSV rows or image files (genome, preprocessing, class names) in JSON.
 
+use crate::data::image::ImagePreprocessor;
 use crate::data::{read_table, CsvOptions, Preprocessor};
-use crate::fsio::{commit_temp, temp_sibling, write_atomic};
-use crate::genome::LayerGenome;
-use crate::train::TrainedModel;
+use crate::genome::AnyGenome;
+use crate::model::TrainedNetwork;
+use crate::workflow::InputPreprocessor;
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::path::Path;
 
-/// File name of the weights inside a model folder.
-pub const WEIGHTS_FILE: &str = "model.safetensors";
+#[path = "bundle_files.rs"]
+pub mod files;
+
+use files::{save_model_folder, ModelFolder};
+
+/// File name of the weights in model folders of format 1; format 2 names a
+/// content-addressed weights file in `model.json` (see [`files`]).
+pub const WEIGHTS_FILE: &str = files::LEGACY_WEIGHTS_FILE;
 /// File name of the description inside a model folder.
-pub const DESCRIPTION_FILE: &str = "model.json";
-/// Version of the model description format this gemmule writes and reads.
-pub const MODEL_FORMAT: u32 = 1;
-/// Largest model description read (a guard against hostile files).
-const MAX_DESCRIPTION_BYTES: u64 = 64 << 20;
+pub const DESCRIPTION_FILE: &str = files::DESCRIPTION_FILE;
+/// Version of the model description format this gemmule writes (it reads
+/// this and every older one). 2: the weights file is named in `model.json`.
+pub const MODEL_FORMAT: u32 = 2;
+/// Bytes a weights file may have beyond 8 per parameter (tensor names and
+/// shapes; 8 per parameter leaves room for batch-norm running statistics).
+const WEIGHTS_HEADER_ALLOWANCE: u64 = 1 << 20;
 
 /// The JSON half of a saved model.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -26,14 +35,20 @@ pub struct ModelDescription {
     pub format: u32,
     /// The gemmule version that saved it.
     pub tool_version: String,
-    /// The architecture and training genes.
-    pub genome: LayerGenome,
+    /// The architecture and training genes (a layer or cell genome).
+    pub genome: AnyGenome,
     /// Encoded input features.
     pub n_inputs: usize,
     /// Classes (outputs).
     pub n_classes: usize,
-    /// Preprocessing fitted on the training rows; predicts from raw CSV rows.
-    pub preprocessor: Preprocessor,
+    /// Preprocessing fitted on the training rows of a table; predicts from
+    /// raw CSV rows. Absent for image models.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub preprocessor: Option<Preprocessor>,
+    /// Channel standardisation and shape fitted on training images; absent
+    /// for table models.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub image_preprocessor: Option<ImagePreprocessor>,
     /// How the model came to be (data fingerprint, seed, epochs, scores, …).
     pub provenance: serde_json::Value,
 }
@@ -43,8 +58,8 @@ pub struct ModelDescription {
 pub struct ModelBundle {
     /// What the JSON file holds.
     pub description: ModelDescription,
-    /// The network weights.
-    pub model: TrainedModel,
+    /// The trained network.
+    pub model: TrainedNetwork,
 }
 
 /// Predictions for a table's rows.
@@ -60,107 +75,88 @@ pub struct Predictions {
     pub labels: Option<Vec<u32>>,
     /// Problems tolerated while encoding (e.g. unseen categories).
     pub warnings: Vec<String>,
+    /// Where each predicted image came from (its file, or its line in a
+    /// pixel CSV); empty for table rows.
+    pub sources: Vec<String>,
 }
 
 impl ModelBundle {
     /// Bundles a trained model with its preprocessing.
     pub fn new(
-        model: TrainedModel,
-        preprocessor: Preprocessor,
+        genome: AnyGenome,
+        model: TrainedNetwork,
+        preprocessor: InputPreprocessor,
         provenance: serde_json::Value,
     ) -> Self {
+        let (preprocessor, image_preprocessor) = match preprocessor {
+            InputPreprocessor::Table(p) => (Some(p), None),
+            InputPreprocessor::Image(p) => (None, Some(p)),
+        };
         ModelBundle {
             description: ModelDescription {
                 format: MODEL_FORMAT,
                 tool_version: env!("CARGO_PKG_VERSION").to_string(),
-                genome: model.genome.clone(),
-                n_inputs: model.n_inputs,
-                n_classes: model.n_classes,
+                genome,
+                n_inputs: model.n_inputs(),
+                n_classes: model.n_classes(),
                 preprocessor,
+                image_preprocessor,
                 provenance,
             },
             model,
         }
     }
 
-    /// Saves into folder `dir` (created if needed). Each file is replaced
-    /// atomically, weights first, so an interrupted save leaves the previous
-    /// model readable.
-    pub fn save(&self, dir: &Path) -> Result<()> {
-        std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
-        let weights = dir.join(WEIGHTS_FILE);
-        let temp = temp_sibling(&weights);
-        self.model.save_safetensors(&temp)?;
-        readable_by_all(&temp)?;
-        commit_temp(&temp, &weights)?;
-        let json = serde_json::to_vec_pretty(&self.description)
-            .map_err(|e| Error::internal(format!("model description: {e}")))?;
-        write_atomic(&dir.join(DESCRIPTION_FILE), &json)
+    /// The preprocessing saved with the model.
+    pub fn input_preprocessor(&self) -> Result<InputPreprocessor> {
+        self.description.input_preprocessor()
     }
 
-    /// Loads a model folder written by [`ModelBundle::save`].
+    /// Saves into folder `dir` (created if needed), crash-safely: the weights
+    /// go to a content-addressed file first, then `model.json`, which names
+    /// it, is replaced atomically; an interrupted save leaves the previous
+    /// model complete (see [`files`]).
+    pub fn save(&self, dir: &Path) -> Result<()> {
+        let description = serde_json::to_value(&self.description)
+            .map_err(|e| Error::internal(format!("model description: {e}")))?;
+        save_model_folder(dir, description, |temp| self.model.save_safetensors(temp))?;
+        Ok(())
+    }
+
+    /// Loads a model folder written by [`ModelBundle::save`] (or by an older
+    /// gemmule, format 1), checking the weights file's size against the
+    /// genome and its SHA-256 against `model.json`.
     pub fn load(dir: &Path) -> Result<Self> {
-        let json_path = dir.join(DESCRIPTION_FILE);
-        let weights_path = dir.join(WEIGHTS_FILE);
-        for path in [&json_path, &weights_path] {
-            if !path.is_file() {
-                return Err(Error::input(format!(
-                    "{}: missing; a model folder holds {DESCRIPTION_FILE} and {WEIGHTS_FILE} (made by `gemmule train` or `gemmule finalize`)",
-                    path.display()
-                )));
-            }
-        }
-        let size = std::fs::metadata(&json_path)
-            .map_err(|e| Error::io(&json_path, e))?
-            .len();
-        if size > MAX_DESCRIPTION_BYTES {
-            return Err(Error::input(format!(
-                "{}: {size} bytes is larger than any model description ({MAX_DESCRIPTION_BYTES} bytes at most)",
-                json_path.display()
-            )));
-        }
-        let text = std::fs::read_to_string(&json_path).map_err(|e| Error::io(&json_path, e))?;
-        let probe: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
-            Error::input(format!(
-                "{}:{}:{}: not valid JSON: {e}",
-                json_path.display(),
-                e.line(),
-                e.column()
-            ))
-        })?;
-        if let Some(format) = probe.get("format").and_then(|f| f.as_u64()) {
-            if format > u64::from(MODEL_FORMAT) {
-                return Err(Error::input(format!(
-                    "{}: model format {format} was written by a newer gemmule ({}); upgrade gemmule to read it",
-                    json_path.display(),
-                    probe.get("tool_version").and_then(|v| v.as_str()).unwrap_or("unknown version")
-                )));
-            }
-        }
-        let description: ModelDescription = serde_json::from_str(&text).map_err(|e| {
-            Error::input(format!(
-                "{}:{}:{}: not a gemmule model description: {e}",
-                json_path.display(),
-                e.line(),
-                e.column()
-            ))
-        })?;
-        if description.n_inputs != description.preprocessor.n_features()
-            || description.n_classes != description.preprocessor.class_names().len()
+        let folder = ModelFolder::open(dir, MODEL_FORMAT)?;
+        let json_path = folder.description_path();
+        let description: ModelDescription = folder.parse_description()?;
+        let pre = description
+            .input_preprocessor()
+            .map_err(|e| Error::input(format!("{}: {e}", json_path.display())))?;
+        if description.n_inputs != pre.n_features()
+            || description.n_classes != pre.class_names().len()
         {
             return Err(Error::input(format!(
                 "{}: n_inputs/n_classes ({}/{}) disagree with the preprocessing ({}/{})",
                 json_path.display(),
                 description.n_inputs,
                 description.n_classes,
-                description.preprocessor.n_features(),
-                description.preprocessor.class_names().len()
+                pre.n_features(),
+                pre.class_names().len()
             )));
         }
-        let model = TrainedModel::load_safetensors(
-            &weights_path,
-            description.genome.clone(),
-            description.n_inputs,
+        let layout = pre.layout();
+        let cost = crate::model::genome_cost(&description.genome, &layout, description.n_classes)
+            .map_err(|e| Error::input(format!("{}: {e}", json_path.display())))?;
+        let max_bytes = cost
+            .params
+            .saturating_mul(8)
+            .saturating_add(WEIGHTS_HEADER_ALLOWANCE);
+        folder.check_weights(max_bytes)?;
+        let model = TrainedNetwork::load_safetensors(
+            folder.weights_path(),
+            &description.genome,
+            &layout,
             description.n_classes,
         )?;
         Ok(ModelBundle { description, model })
@@ -169,7 +165,12 @@ impl ModelBundle {
     /// Predicts every row of the CSV file at `path`, which must have the
     /// training features (by name); the label column is optional.
     pub fn predict_csv(&self, path: &Path, delimiter: Option<u8>) -> Result<Predictions> {
-        let pre = &self.description.preprocessor;
+        let Some(pre) = &self.description.preprocessor else {
+            return Err(Error::input(format!(
+                "{}: this model was trained on images; predict from images: --data DIR, --data IMAGES --idx-labels LABELS, or a CSV of pixel columns",
+                path.display()
+            )));
+        };
         let options = CsvOptions {
             // Columns are found by name; the label column may be absent.
             label: None,
@@ -187,19 +188,51 @@ impl ModelBundle {
             probabilities,
             labels: encoded.labels,
             warnings: encoded.warnings,
+            sources: Vec::new(),
         })
     }
 }
 
-/// Gives a file the usual 0644 permissions (the tensor writer creates 0600).
-fn readable_by_all(path: &Path) -> Result<()> {
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        std::fs::set_permissions(path, std::fs::Permissions::from_mode(0o644))
-            .map_err(|e| Error::io(path, e))?;
+impl ModelDescription {
+    /// The saved preprocessing: exactly one of the table and image forms.
+    pub fn input_preprocessor(&self) -> Result<InputPreprocessor> {
+        match (&self.preprocessor, &self.image_preprocessor) {
+            (Some(p), None) => Ok(InputPreprocessor::Table(p.clone())),
+            (None, Some(p)) => Ok(InputPreprocessor::Image(p.clone())),
+            (Some(_), Some(_)) => Err(Error::input(
+                "the model description holds both a table and an image preprocessor; keep one",
+            )),
+            (None, None) => Err(Error::input(
+                "the model description holds no preprocessor (`preprocessor` or `image_preprocessor`)",
+            )),
+        }
     }
-    Ok(())
+}
+
+impl ModelBundle {
+    /// Predicts every image of `table` (read with the loaders of
+    /// [`crate::data::image`]); it must have the training shape. Labels are
+    /// returned when the images carry known class names.
+    pub fn predict_images(&self, table: &crate::data::image::ImageTable) -> Result<Predictions> {
+        let Some(pre) = &self.description.image_preprocessor else {
+            return Err(Error::input(format!(
+                "{}: this model was trained on a table; predict from a CSV file",
+                table.path.display()
+            )));
+        };
+        let (x, labels) = pre.encode(table)?;
+        let rows = table.len();
+        let probabilities = self.model.predict_proba(&x, rows)?;
+        let classes = self.model.predict_classes(&x, rows)?;
+        Ok(Predictions {
+            class_names: pre.class_names.clone(),
+            classes,
+            probabilities,
+            labels,
+            warnings: table.warnings.clone(),
+            sources: table.sources.clone(),
+        })
+    }
 }
 
 fn read_table_for_prediction(path: &Path, options: &CsvOptions) -> Result<crate::data::Table> {

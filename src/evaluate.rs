@@ -1,11 +1,13 @@
-//! The real evaluator: trains a layer genome on the training split and
-//! scores it on the validation split.
+//! The real evaluator: trains a genome of any encoding on the training
+//! split and scores it on the validation split.
 
+use crate::data::image::ImageShape;
 use crate::data::Dataset;
-use crate::genome::LayerGenome;
-use crate::net::layer_cost;
+use crate::genome::{AnyGenome, LayerGenome};
+use crate::model::{genome_cost, train_genome, training_memory_bytes, InputLayout};
+use crate::net::Cost;
 use crate::search::{EvalStatus, Evaluation, Evaluator};
-use crate::train::{train, Objective, Scores, TrainSettings, TrainStatus};
+use crate::train::{Objective, Scores, TrainSettings, TrainStatus};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -32,6 +34,15 @@ pub struct TrainerSettings {
     /// header when unset, so runs without it read and resume as before.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub size_penalty: Option<f64>,
+    /// Candidates whose estimated training memory
+    /// ([`crate::model::training_memory_bytes`]) is over this many MiB are not
+    /// trained ("over budget"). Left out of the header when unset.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_memory_mb: Option<u64>,
+    /// Shift training images by up to one pixel, seeded (image cell genomes
+    /// only). Left out of the header when off.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub augment: bool,
 }
 
 impl Default for TrainerSettings {
@@ -44,6 +55,8 @@ impl Default for TrainerSettings {
             max_params: None,
             max_madds: None,
             size_penalty: None,
+            max_memory_mb: None,
+            augment: false,
         }
     }
 }
@@ -86,50 +99,95 @@ pub fn scores_map(scores: &Scores) -> BTreeMap<String, f64> {
 pub struct TrainingEvaluator {
     train: Dataset,
     valid: Dataset,
+    input: InputLayout,
     settings: TrainerSettings,
 }
 
 impl TrainingEvaluator {
-    /// An evaluator over the given splits.
+    /// An evaluator over tabular splits (flat feature rows).
     pub fn new(train: Dataset, valid: Dataset, settings: TrainerSettings) -> Self {
+        let input = InputLayout {
+            n_inputs: train.n_features,
+            image: None,
+        };
         TrainingEvaluator {
             train,
             valid,
+            input,
             settings,
         }
+    }
+
+    /// An evaluator over image splits of `shape` (rows in CHW order); image
+    /// cell genomes need it, layer genomes read the pixels as flat rows.
+    pub fn for_images(
+        train: Dataset,
+        valid: Dataset,
+        shape: ImageShape,
+        settings: TrainerSettings,
+    ) -> Self {
+        let mut evaluator = TrainingEvaluator::new(train, valid, settings);
+        evaluator.input.image = Some(shape);
+        evaluator
     }
 
     /// The settings candidates are trained with.
     pub fn settings(&self) -> &TrainerSettings {
         &self.settings
     }
+
+    /// Why `genome` is not trained (a cap it exceeds), if it is not.
+    fn over_cap(&self, cost: &Cost, memory: u64) -> Option<String> {
+        if let Some(cap) = self.settings.max_params.filter(|&cap| cost.params > cap) {
+            return Some(format!(
+                "{} parameters is over the cap of {cap}",
+                cost.params
+            ));
+        }
+        if let Some(cap) = self.settings.max_madds.filter(|&cap| cost.madds > cap) {
+            return Some(format!(
+                "{} multiply-adds is over the cap of {cap}",
+                cost.madds
+            ));
+        }
+        if let Some(cap) = self
+            .settings
+            .max_memory_mb
+            .filter(|&cap| memory > cap.saturating_mul(1 << 20))
+        {
+            return Some(format!(
+                "its training would need about {} MiB, over the memory cap of {cap} MiB",
+                memory.div_ceil(1 << 20)
+            ));
+        }
+        None
+    }
 }
 
-impl Evaluator<LayerGenome> for TrainingEvaluator {
-    fn evaluate(&self, genome: &LayerGenome, seed: u64) -> Evaluation {
-        let cost = layer_cost(genome, self.train.n_features, self.train.n_classes);
+impl Evaluator<AnyGenome> for TrainingEvaluator {
+    fn evaluate(&self, genome: &AnyGenome, seed: u64) -> Evaluation {
         let mut evaluation = Evaluation {
             status: EvalStatus::Completed,
             objective: None,
             scores: BTreeMap::new(),
-            params: Some(cost.params),
-            madds: Some(cost.madds),
+            params: None,
+            madds: None,
             epochs: 0,
             best_epoch: 0,
             message: None,
         };
-        let over = match (self.settings.max_params, self.settings.max_madds) {
-            (Some(cap), _) if cost.params > cap => Some(format!(
-                "{} parameters is over the cap of {cap}",
-                cost.params
-            )),
-            (_, Some(cap)) if cost.madds > cap => Some(format!(
-                "{} multiply-adds is over the cap of {cap}",
-                cost.madds
-            )),
-            _ => None,
+        let cost = match genome_cost(genome, &self.input, self.train.n_classes) {
+            Ok(cost) => cost,
+            Err(e) => {
+                evaluation.status = EvalStatus::Failed;
+                evaluation.message = Some(e.to_string());
+                return evaluation;
+            }
         };
-        if let Some(message) = over {
+        evaluation.params = Some(cost.params);
+        evaluation.madds = Some(cost.madds);
+        let memory = training_memory_bytes(genome, &self.input, self.train.n_classes);
+        if let Some(message) = self.over_cap(&cost, memory) {
             evaluation.status = EvalStatus::OverBudget;
             evaluation.message = Some(message);
             return evaluation;
@@ -139,7 +197,15 @@ impl Evaluator<LayerGenome> for TrainingEvaluator {
             patience: self.settings.patience,
             seed,
         };
-        match train(genome, &self.train, Some(&self.valid), &settings) {
+        let trained = train_genome(
+            genome,
+            &self.train,
+            Some(&self.valid),
+            &self.input,
+            &settings,
+            self.settings.augment,
+        );
+        match trained {
             Ok(outcome) => {
                 evaluation.epochs = outcome.epochs_run;
                 evaluation.best_epoch = outcome.best_epoch;
@@ -166,5 +232,12 @@ impl Evaluator<LayerGenome> for TrainingEvaluator {
             }
         }
         evaluation
+    }
+}
+
+impl Evaluator<LayerGenome> for TrainingEvaluator {
+    /// As for [`AnyGenome::Layers`].
+    fn evaluate(&self, genome: &LayerGenome, seed: u64) -> Evaluation {
+        Evaluator::<AnyGenome>::evaluate(self, &AnyGenome::Layers(genome.clone()), seed)
     }
 }

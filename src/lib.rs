@@ -10,10 +10,12 @@
 pub mod bundle;
 pub mod cli;
 pub mod data;
+pub mod demo;
 pub mod error;
 pub mod evaluate;
 pub mod fsio;
 pub mod genome;
+pub mod model;
 pub mod net;
 pub mod render;
 pub mod report;

@@ -1,17 +1,25 @@
 //! Command-line options, shared across commands so the same option means the
 //! same thing everywhere.
 
+use crate::data::image::ImageShape;
 use crate::data::SplitFractions;
-use crate::genome::{Activation, LayerSpace};
+use crate::genome::{Activation, AnySpace, Encoding, LayerSpace};
 use crate::train::Objective;
-use crate::workflow::DataSource;
+use crate::workflow::{DataFormat, DataSource};
 use crate::{Error, Result};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
 
 /// gemmule: find a compact classifier's architecture by search, on the CPU.
 #[derive(Debug, Parser)]
-#[command(name = "gemmule", version, about, long_about = None, arg_required_else_help = true)]
+#[command(
+    name = "gemmule",
+    version,
+    about,
+    long_about = None,
+    arg_required_else_help = true,
+    after_help = "Example:\n  gemmule search --data wine.csv --out runs/wine --budget 60\n\nExit codes: 0 success, 1 internal failure, 2 bad input, 130 interrupted.\nNO_COLOR=1 turns colour off. Every command is described in docs/cli.md."
+)]
 pub struct Cli {
     /// The command to run.
     #[command(subcommand)]
@@ -21,20 +29,24 @@ pub struct Cli {
 /// The commands.
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Train one genome on a CSV file, print validation scores and save the model.
+    /// See the whole job on invented demo data: compare aging evolution with
+    /// random search, finalize the winner, print the comparison and the graph.
+    #[command(after_help = "Examples:\n  gemmule demo --quick\n  gemmule demo --out my-demo")]
+    Demo(super::demo::DemoArgs),
+    /// Train one genome on a table or images, print validation scores and save the model.
     #[command(
         after_help = "Example:\n  gemmule train --data wine.csv --genome genome.json --out wine-model"
     )]
     Train(TrainArgs),
-    /// Predict classes and class probabilities for the rows of a CSV file.
+    /// Predict classes and class probabilities for the rows of a CSV file or for images.
     #[command(
         after_help = "Example:\n  gemmule predict --model wine-model --data new-rows.csv --out predictions.csv"
     )]
     Predict(PredictArgs),
-    /// Print the exact size of a layer search space.
+    /// Print the exact size of a search space (layers, or cells with --encoding).
     #[command(after_help = "Example:\n  gemmule space --max-layers 3 --max-width 64")]
     Space(SpaceArgs),
-    /// Search architectures on a CSV file; every evaluation goes to RUN/journal.jsonl.
+    /// Search architectures on a table or images; every evaluation goes to RUN/journal.jsonl.
     #[command(
         after_help = "Example:\n  gemmule search --data wine.csv --out runs/wine --budget 60 --jobs 2 --seed 1"
     )]
@@ -43,14 +55,16 @@ pub enum Command {
     #[command(after_help = "Example:\n  gemmule resume runs/wine")]
     Resume(ResumeArgs),
     /// Summarize a run: settings, top candidates, best-so-far curve, best architecture.
-    #[command(after_help = "Example:\n  gemmule show runs/wine")]
+    #[command(
+        after_help = "Examples:\n  gemmule show runs/wine\n  gemmule show runs/wine --json > wine-run.json"
+    )]
     Show(ShowArgs),
     /// Retrain the best candidate on train+validation and open the sealed test split once.
     #[command(after_help = "Example:\n  gemmule finalize runs/wine --top-k 3 --repeats 3")]
     Finalize(FinalizeArgs),
     /// Run several strategies over several seeds with equal budgets and compare them.
     #[command(
-        after_help = "Example:\n  gemmule compare --data wine.csv --out runs/wine-cmp --strategies evolution,random --seeds 5 --budget 60\n\nRunning the same command again continues an unfinished comparison."
+        after_help = "Example:\n  gemmule compare --data wine.csv --out runs/wine-cmp --strategies evolution,random --seeds 5 --budget 60\n  gemmule compare --data wine.csv --out runs/wine-cmp --json > wine-cmp.json\n\nRunning the same command again continues an unfinished comparison."
     )]
     Compare(super::compare::CompareArgs),
     /// Write report.html, summary.json and candidates.csv for a run or comparison directory.
@@ -63,9 +77,24 @@ pub enum Command {
 /// Which data file and how to read and split it.
 #[derive(Debug, Args)]
 pub struct DataArgs {
-    /// CSV file with a header row; one row per example.
-    #[arg(long, value_name = "FILE.csv")]
+    /// CSV file with a header row (one row per example), or a folder of
+    /// images with one sub-folder per class (PNG/JPEG), or an IDX images
+    /// file (with --idx-labels).
+    #[arg(long, value_name = "FILE.csv|DIR")]
     pub data: PathBuf,
+    /// Read --data as a CSV whose feature columns are the pixels of images
+    /// of this shape (height x width x channels, e.g. 8x8x1), row by row.
+    #[arg(long, value_name = "HxWxC")]
+    pub image_shape: Option<String>,
+    /// Read --data as an IDX images file with these IDX labels.
+    #[arg(long, value_name = "FILE")]
+    pub idx_labels: Option<PathBuf>,
+    /// Image folder: convert every image to 1 (gray) or 3 (RGB) channels.
+    #[arg(long, value_name = "1|3")]
+    pub image_channels: Option<u8>,
+    /// Image folder: resize every image to this size (height x width, e.g. 12x12).
+    #[arg(long, value_name = "HxW")]
+    pub resize: Option<String>,
     /// Name of the label column (default: the last column).
     #[arg(long, value_name = "COLUMN")]
     pub label: Option<String>,
@@ -110,12 +139,72 @@ impl DataArgs {
         fractions.validate()?;
         Ok(DataSource {
             path: self.data.clone(),
+            format: self.format()?,
             label: self.label.clone(),
             delimiter: self.delimiter,
             impute: self.impute,
             fractions,
             split_seed: self.split_seed,
         })
+    }
+}
+
+impl DataArgs {
+    /// What --data holds, from the image options and whether it is a folder.
+    fn format(&self) -> Result<DataFormat> {
+        let folder = self.data.is_dir();
+        let folder_only = self.image_channels.is_some() || self.resize.is_some();
+        match (&self.image_shape, &self.idx_labels) {
+            (Some(_), Some(_)) => Err(Error::input(
+                "--image-shape (pixel CSV) and --idx-labels (IDX files) exclude each other",
+            )),
+            (Some(text), None) => {
+                if folder || folder_only {
+                    return Err(Error::input(format!(
+                        "--image-shape describes a CSV of pixel columns, but {} is a folder or folder options were given; leave --image-shape out for image folders",
+                        self.data.display()
+                    )));
+                }
+                Ok(DataFormat::PixelCsv {
+                    shape: ImageShape::parse(text)?,
+                })
+            }
+            (None, Some(labels)) => {
+                if folder_only {
+                    return Err(Error::input(
+                        "--image-channels and --resize apply to image folders, not IDX files",
+                    ));
+                }
+                Ok(DataFormat::Idx {
+                    labels: labels.clone(),
+                })
+            }
+            (None, None) if folder => Ok(DataFormat::ImageFolder {
+                channels: self.image_channels,
+                resize: self.resize.as_deref().map(parse_size).transpose()?,
+            }),
+            (None, None) if folder_only => Err(Error::input(format!(
+                "--image-channels and --resize apply to image folders, but {} is not a folder",
+                self.data.display()
+            ))),
+            (None, None) => Ok(DataFormat::Table),
+        }
+    }
+}
+
+/// Reads `HxW` (e.g. `12x12`).
+fn parse_size(text: &str) -> Result<(u32, u32)> {
+    let parts: Vec<&str> = text.trim().split(['x', 'X']).collect();
+    match parts.as_slice() {
+        [h, w] => match (h.trim().parse::<u32>(), w.trim().parse::<u32>()) {
+            (Ok(h), Ok(w)) if h > 0 && w > 0 => Ok((h, w)),
+            _ => Err(Error::input(format!(
+                "--resize {text}: height and width must be positive integers, such as 12x12"
+            ))),
+        },
+        _ => Err(Error::input(format!(
+            "--resize {text}: give height x width, such as 12x12"
+        ))),
     }
 }
 
@@ -137,7 +226,10 @@ pub struct TrainArgs {
     /// Epochs without a lower validation loss before stopping (0: never stop early).
     #[arg(long, value_name = "N", default_value_t = 5)]
     pub patience: u32,
-    /// Folder to save the model in (model.json + model.safetensors).
+    /// Shift training images by up to one pixel (seeded; image cell genomes only).
+    #[arg(long)]
+    pub augment: bool,
+    /// Folder to save the model in (model.json + weights).
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
 }
@@ -148,21 +240,36 @@ pub struct PredictArgs {
     /// Model folder made by `gemmule train` or `gemmule finalize` (RUN/final).
     #[arg(long, value_name = "DIR")]
     pub model: PathBuf,
-    /// CSV file with the training features (the label column is optional).
-    #[arg(long, value_name = "FILE.csv")]
+    /// CSV file with the training features (the label column is optional);
+    /// for image models: a folder of images (class sub-folders give labels,
+    /// image files directly inside are unlabelled), an IDX images file (with
+    /// --idx-labels) or a CSV of pixel columns plus a label column.
+    #[arg(long, value_name = "FILE.csv|DIR")]
     pub data: PathBuf,
     /// Field delimiter, one character (default: comma).
     #[arg(long, value_name = "CHAR")]
     pub delimiter: Option<char>,
+    /// Image models: read --data as an IDX images file with these IDX labels.
+    #[arg(long, value_name = "FILE")]
+    pub idx_labels: Option<PathBuf>,
+    /// Image models, pixel CSV: name of the label column (default: the last column).
+    #[arg(long, value_name = "COLUMN")]
+    pub label: Option<String>,
     /// Write predictions here instead of standard output.
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
 }
 
-/// Bounds of the layer search space (each overrides the default or --space file).
+/// The encoding and bounds of the search space (each option overrides the
+/// default or the --space file).
 #[derive(Debug, Args, Default)]
 pub struct SpaceArgs {
-    /// Search-space JSON file (see docs/search-spaces.md); options below override it.
+    /// Genome encoding: layers (MLP), cells_image (convolutional cells, needs
+    /// images) or cells_table (dense cells). Default: cells_image for image
+    /// data, layers for tables.
+    #[arg(long, value_name = "ENCODING")]
+    pub encoding: Option<String>,
+    /// Search-space JSON file of the encoding (see docs/search-spaces.md); options below override it.
     #[arg(long, value_name = "SPACE.json")]
     pub space: Option<PathBuf>,
     /// Fewest hidden layers.
@@ -183,6 +290,18 @@ pub struct SpaceArgs {
     /// Leave residual skips out of the space.
     #[arg(long)]
     pub no_residual: bool,
+    /// Cells: blocks per cell B (1..=5).
+    #[arg(long, value_name = "B")]
+    pub blocks: Option<u32>,
+    /// Cells: allowed stem channel counts (widths for tables) F, comma-separated.
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    pub stem_channels: Option<Vec<u32>>,
+    /// Cells: allowed normal cells per repeat N, comma-separated.
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    pub normal_cells: Option<Vec<u32>>,
+    /// Cells: allowed repeats R, comma-separated.
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    pub repeats: Option<Vec<u32>>,
 }
 
 /// An activation name on the command line.
@@ -210,7 +329,76 @@ impl From<ActivationArg> for Activation {
 }
 
 impl SpaceArgs {
-    /// The space: the --space file (or the default) with the overrides applied, checked.
+    /// The encoding asked for, or the default for the data (`images`: cells_image).
+    pub fn encoding(&self, images: bool) -> Result<Encoding> {
+        match &self.encoding {
+            Some(name) => Encoding::from_name(name.trim()),
+            None if images => Ok(Encoding::ImageCells),
+            None => Ok(Encoding::Layers),
+        }
+    }
+
+    /// The space of the encoding (default for `images` data, see
+    /// [`SpaceArgs::encoding`]): the --space file or the default, with the
+    /// overrides applied, checked. Layer options on a cell encoding (and the
+    /// other way round) are refused.
+    pub fn any_space(&self, images: bool) -> Result<AnySpace> {
+        let encoding = self.encoding(images)?;
+        if encoding == Encoding::Layers {
+            if self.blocks.is_some()
+                || self.stem_channels.is_some()
+                || self.normal_cells.is_some()
+                || self.repeats.is_some()
+            {
+                return Err(Error::input(
+                    "--blocks, --stem-channels, --normal-cells and --repeats shape cell spaces; add --encoding cells_table (or cells_image for images)",
+                ));
+            }
+            return Ok(AnySpace::Layers(self.space()?));
+        }
+        if self.min_layers.is_some()
+            || self.max_layers.is_some()
+            || self.min_width.is_some()
+            || self.max_width.is_some()
+            || self.activations.is_some()
+            || self.no_residual
+        {
+            return Err(Error::input(format!(
+                "--min-layers, --max-layers, --min-width, --max-width, --activations and --no-residual shape layer spaces, not {encoding}; use --blocks, --stem-channels, --normal-cells, --repeats"
+            )));
+        }
+        let mut space = match &self.space {
+            Some(path) => {
+                let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+                AnySpace::from_json(encoding, &text, &path.display().to_string())?
+            }
+            None => AnySpace::default_for(encoding),
+        };
+        match &mut space {
+            AnySpace::ImageCells(s) => self.override_cells(s),
+            AnySpace::TableCells(s) => self.override_cells(s),
+            AnySpace::Layers(_) => {}
+        }
+        space.check()?;
+        Ok(space)
+    }
+
+    fn override_cells<Op>(&self, space: &mut crate::genome::CellSpace<Op>) {
+        if let Some(b) = self.blocks {
+            space.blocks = b;
+        }
+        if let Some(list) = &self.stem_channels {
+            space.channels = list.clone();
+        }
+        if let Some(list) = &self.normal_cells {
+            space.normal_cells = list.clone();
+        }
+        if let Some(list) = &self.repeats {
+            space.repeats = list.clone();
+        }
+    }
+
+    /// The layer space: the --space file (or the default) with the overrides applied, checked.
     pub fn space(&self) -> Result<LayerSpace> {
         let mut space = match &self.space {
             Some(path) => {
@@ -308,6 +496,13 @@ pub struct SearchArgs {
     /// (the raw scores stay in the journal too).
     #[arg(long, value_name = "LAMBDA")]
     pub size_penalty: Option<f64>,
+    /// Candidates whose estimated training memory is over this many MiB are
+    /// recorded as over budget, not trained.
+    #[arg(long, value_name = "MIB")]
+    pub max_memory_mb: Option<u64>,
+    /// Shift training images by up to one pixel (seeded; cells_image only).
+    #[arg(long)]
+    pub augment: bool,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,
@@ -322,8 +517,8 @@ pub struct ResumeArgs {
     /// Run directory made by `gemmule search`.
     #[arg(value_name = "RUN")]
     pub run: PathBuf,
-    /// The data file, if it moved since the run started (its content must be unchanged).
-    #[arg(long, value_name = "FILE.csv")]
+    /// The data file or image folder, if it moved since the run started (its content must be unchanged).
+    #[arg(long, value_name = "FILE.csv|DIR")]
     pub data: Option<PathBuf>,
     /// A new total evaluation budget (e.g. to extend a finished run).
     #[arg(long, value_name = "N")]
@@ -357,6 +552,9 @@ pub struct ShowArgs {
     /// Also write the drawn architecture as a standalone SVG file (no Graphviz needed).
     #[arg(long, value_name = "FILE.svg")]
     pub svg: Option<PathBuf>,
+    /// Print everything as one JSON document on standard output (keys in docs/json-output.md).
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Options of `gemmule finalize`.
@@ -374,7 +572,7 @@ pub struct FinalizeArgs {
     /// Open the test split again although it was opened before.
     #[arg(long)]
     pub reopen: bool,
-    /// The data file, if it moved since the run started (its content must be unchanged).
-    #[arg(long, value_name = "FILE.csv")]
+    /// The data file or image folder, if it moved since the run started (its content must be unchanged).
+    #[arg(long, value_name = "FILE.csv|DIR")]
     pub data: Option<PathBuf>,
 }

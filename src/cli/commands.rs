@@ -8,10 +8,10 @@ use super::show::show;
 use super::EXIT_INTERRUPTED;
 use crate::bundle::ModelBundle;
 use crate::evaluate::{scores_map, TrainerSettings};
-use crate::genome::{LayerGenome, SearchSpace};
-use crate::render::layer_graph;
+use crate::genome::{AnyGenome, AnySpace, SearchSpace};
+use crate::model::{genome_cost, train_genome};
 use crate::search::{AgingSettings, Budget, Journal, SearchEnding, SearchOutcome};
-use crate::train::{train, TrainSettings};
+use crate::train::TrainSettings;
 use crate::workflow::{finalize, resume_job, FinalizeOptions, SearchJob, StrategyChoice};
 use crate::Error;
 use anyhow::{Context, Result};
@@ -21,6 +21,7 @@ use std::sync::atomic::AtomicBool;
 /// Runs one command; returns the exit code on success.
 pub fn dispatch(command: Command, stop: &AtomicBool) -> Result<i32> {
     match command {
+        Command::Demo(a) => super::demo::demo_command(a, stop),
         Command::Train(a) => train_command(a),
         Command::Predict(a) => predict_command(a),
         Command::Space(a) => space_command(a),
@@ -42,23 +43,38 @@ fn warn_all(warnings: &[String]) {
 fn train_command(a: TrainArgs) -> Result<i32> {
     let source = a.data.source()?;
     let text = std::fs::read_to_string(&a.genome).map_err(|e| Error::io(&a.genome, e))?;
-    let genome = LayerGenome::from_json(&text, &a.genome.display().to_string())?;
+    let genome = AnyGenome::from_json(&text, &a.genome.display().to_string())?;
     genome
         .validate_basic()
         .map_err(|e| Error::input(format!("{}: {e}", a.genome.display())))?;
     let prepared = source.prepare()?;
     warn_all(&prepared.info.warnings);
+    if a.augment && genome.encoding() != crate::genome::Encoding::ImageCells {
+        return Err(Error::input(
+            "--augment shifts images and applies to image cell genomes (cells_image) only",
+        )
+        .into());
+    }
+    let layout = prepared.layout();
+    genome_cost(&genome, &layout, prepared.info.class_names.len())
+        .map_err(|e| Error::input(format!("{}: {e}", a.genome.display())))?;
     let settings = TrainSettings {
         max_epochs: a.epochs,
         patience: a.patience,
         seed: a.seed,
     };
-    let outcome = train(&genome, &prepared.train, Some(&prepared.valid), &settings)?;
+    let outcome = train_genome(
+        &genome,
+        &prepared.train,
+        Some(&prepared.valid),
+        &layout,
+        &settings,
+        a.augment,
+    )?;
     println!("genome {} on {}", genome.id(), source.path.display());
     print!(
         "{}",
-        layer_graph(
-            &genome,
+        genome.text(
             Some(prepared.info.n_features),
             Some(prepared.info.class_names.len()),
             false
@@ -68,7 +84,7 @@ fn train_command(a: TrainArgs) -> Result<i32> {
         "rows: {} train, {} validation ({} test rows stay sealed)",
         prepared.info.rows_train, prepared.info.rows_valid, prepared.info.rows_test
     );
-    println!("parameters: {}", outcome.model.param_count());
+    println!("parameters: {}", outcome.network.param_count());
     println!(
         "status: {:?}, {} epochs (best {}), {:.2} s, {:.4} s per epoch",
         outcome.status,
@@ -90,7 +106,7 @@ fn train_command(a: TrainArgs) -> Result<i32> {
         "best_epoch": outcome.best_epoch,
         "validation_scores": outcome.scores.as_ref().map(scores_map),
     });
-    ModelBundle::new(outcome.model, prepared.preprocessor, provenance).save(&a.out)?;
+    ModelBundle::new(genome, outcome.network, prepared.preprocessor, provenance).save(&a.out)?;
     println!("model saved in {}", a.out.display());
     Ok(0)
 }
@@ -106,20 +122,49 @@ fn predict_command(a: PredictArgs) -> Result<i32> {
         }
         other => other.map(|c| c as u8),
     };
-    let predictions = bundle.predict_csv(&a.data, delimiter)?;
+    if bundle.description.image_preprocessor.is_none() && a.idx_labels.is_some() {
+        return Err(Error::input(
+            "--idx-labels applies to image models; this model reads CSV rows",
+        )
+        .into());
+    }
+    let predictions = match &bundle.description.image_preprocessor {
+        None => bundle.predict_csv(&a.data, delimiter)?,
+        Some(pre) => {
+            let csv = crate::data::CsvOptions {
+                label: a.label.clone(),
+                delimiter,
+                impute: false,
+            };
+            let images = crate::workflow::read_prediction_images(
+                &a.data,
+                pre.shape,
+                a.idx_labels.as_deref(),
+                &csv,
+            )?;
+            bundle.predict_images(&images)?
+        }
+    };
     warn_all(&predictions.warnings);
-    let mut out = String::from("row,predicted");
+    let with_sources = !predictions.sources.is_empty();
+    let mut out = String::from(if with_sources {
+        "row,source,predicted"
+    } else {
+        "row,predicted"
+    });
     for name in &predictions.class_names {
         out.push_str(&format!(",p_{}", csv_safe(name)));
     }
     out.push('\n');
     let k = predictions.class_names.len();
     for (row, &class) in predictions.classes.iter().enumerate() {
-        out.push_str(&format!(
-            "{},{}",
-            row + 1,
-            csv_safe(&predictions.class_names[class as usize])
-        ));
+        out.push_str(&(row + 1).to_string());
+        if let Some(source) = predictions.sources.get(row) {
+            out.push(',');
+            out.push_str(&csv_safe(source));
+        }
+        out.push(',');
+        out.push_str(&csv_safe(&predictions.class_names[class as usize]));
         for p in &predictions.probabilities[row * k..(row + 1) * k] {
             out.push_str(&format!(",{p:.6}"));
         }
@@ -162,7 +207,45 @@ fn csv_safe(text: &str) -> String {
 }
 
 fn space_command(a: SpaceArgs) -> Result<i32> {
-    let space = a.space()?;
+    match a.any_space(false)? {
+        AnySpace::Layers(space) => print_layer_space(&space),
+        AnySpace::ImageCells(space) => print_cell_space(&space),
+        AnySpace::TableCells(space) => print_cell_space(&space),
+    }
+    Ok(0)
+}
+
+fn print_cell_space<Op: crate::genome::CellOp>(space: &crate::genome::CellSpace<Op>) {
+    println!(
+        "{} cells: B = {} blocks per cell, ops [{}], F in {:?}, N in {:?}, R in {:?}",
+        Op::TAG,
+        space.blocks,
+        space
+            .ops
+            .iter()
+            .map(|op| op.name())
+            .collect::<Vec<_>>()
+            .join(", "),
+        space.channels,
+        space.normal_cells,
+        space.repeats
+    );
+    for i in 0..space.blocks {
+        println!(
+            "  block {}: {} choices (unordered pairs of (input, op))",
+            i + 1,
+            space.block_choices(i)
+        );
+    }
+    println!("  cells (normal or reduction): {}", space.cell_count());
+    println!(
+        "  training-gene combinations: {}",
+        space.training_combinations()
+    );
+    println!("members: {}", space.size());
+}
+
+fn print_layer_space(space: &crate::genome::LayerSpace) {
     println!(
         "hidden layers {}..={}, widths {}..={}, activations [{}], residual skips {}",
         space.min_layers,
@@ -188,12 +271,11 @@ fn space_command(a: SpaceArgs) -> Result<i32> {
         space.training_combinations()
     );
     println!("members: {}", space.size());
-    Ok(0)
 }
 
 fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
     let source = a.data.source()?;
-    let space = a.space.space()?;
+    let space = a.space.any_space(source.is_images())?;
     let strategy = match a.strategy {
         StrategyArg::Random => {
             if a.population.is_some() || a.sample_size.is_some() {
@@ -236,6 +318,8 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             max_params: a.max_params,
             max_madds: a.max_madds,
             size_penalty: a.size_penalty,
+            max_memory_mb: a.max_memory_mb,
+            augment: a.augment,
         },
         seed: a.seed,
         jobs,
@@ -248,9 +332,21 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             None => Vec::new(),
         },
     };
+    if let Some(path) = &a.seed_genomes {
+        for (i, genome) in job.seed_genomes.iter().enumerate() {
+            job.space.validate(genome).map_err(|e| {
+                Error::input(format!(
+                    "{}: genome {} is outside the search space: {e}",
+                    path.display(),
+                    i + 1
+                ))
+            })?;
+        }
+    }
     eprintln!(
-        "searching {} members of the space with {} ({} evaluations, {} jobs, seed {})",
+        "searching {} members of the {} space with {} ({} evaluations, {} jobs, seed {})",
         job.space.size(),
+        job.space.encoding(),
         match job.strategy {
             StrategyChoice::Random => "random search".to_string(),
             StrategyChoice::Evolution(Some(s)) =>
@@ -268,7 +364,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
 }
 
 /// Reads one genome or a JSON array of genomes.
-fn read_genome_list(path: &std::path::Path) -> Result<Vec<LayerGenome>> {
+fn read_genome_list(path: &std::path::Path) -> Result<Vec<AnyGenome>> {
     let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
     let name = path.display().to_string();
     if text.trim_start().starts_with('[') {
@@ -283,12 +379,12 @@ fn read_genome_list(path: &std::path::Path) -> Result<Vec<LayerGenome>> {
             .iter()
             .enumerate()
             .map(|(i, v)| {
-                LayerGenome::from_json(&v.to_string(), &format!("{name} (genome {})", i + 1))
+                AnyGenome::from_json(&v.to_string(), &format!("{name} (genome {})", i + 1))
                     .map_err(Into::into)
             })
             .collect()
     } else {
-        Ok(vec![LayerGenome::from_json(&text, &name)?])
+        Ok(vec![AnyGenome::from_json(&text, &name)?])
     }
 }
 
@@ -363,12 +459,9 @@ fn finalize_command(a: FinalizeArgs) -> Result<i32> {
     println!("validation objective: {:.4}", report.validation_objective);
     print!(
         "{}",
-        layer_graph(
-            &report.genome,
-            Some(report.n_inputs),
-            Some(report.n_classes),
-            false
-        )
+        report
+            .genome
+            .text(Some(report.n_inputs), Some(report.n_classes), false)
     );
     println!(
         "retrained on {} rows (train+validation) for {} epochs, seed {}",

@@ -5,7 +5,7 @@ use super::args::{DataArgs, SpaceArgs, StrategyArg};
 use super::progress::ProgressObserver;
 use super::EXIT_INTERRUPTED;
 use crate::evaluate::TrainerSettings;
-use crate::genome::LayerGenome;
+use crate::genome::AnyGenome;
 use crate::search::{SearchObserver, SearchOutcome};
 use crate::stats::{Summary, DEFAULT_RESAMPLES};
 use crate::train::Objective;
@@ -66,6 +66,16 @@ pub struct CompareArgs {
     /// Candidates with more multiply-adds per example are recorded as over budget, not trained.
     #[arg(long, value_name = "N")]
     pub max_madds: Option<u64>,
+    /// Prefer compact candidates: rank by validation score − λ·log10(parameters).
+    #[arg(long, value_name = "LAMBDA")]
+    pub size_penalty: Option<f64>,
+    /// Candidates whose estimated training memory is over this many MiB are
+    /// recorded as over budget, not trained.
+    #[arg(long, value_name = "MIB")]
+    pub max_memory_mb: Option<u64>,
+    /// Shift training images by up to one pixel (seeded; cells_image only).
+    #[arg(long)]
+    pub augment: bool,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,
@@ -147,34 +157,32 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
         objective: a.objective,
         max_params: a.max_params,
         max_madds: a.max_madds,
-        size_penalty: None,
+        size_penalty: a.size_penalty,
+        max_memory_mb: a.max_memory_mb,
+        augment: a.augment,
     };
+    let source = a.data.source()?;
+    let space = a.space.any_space(source.is_images())?;
     Ok(ComparePlan::new(
-        a.data.source()?,
-        a.space.space()?,
-        trainer,
-        strategies,
-        seeds,
-        a.budget,
-        jobs,
+        source, space, trainer, strategies, seeds, a.budget, jobs,
     )?)
 }
 
 /// Per-run lines and a progress bar per run, on standard error.
-struct CliComparisonObserver {
+pub(super) struct CliComparisonObserver {
     quiet: bool,
     bar: ProgressObserver,
 }
 
 impl CliComparisonObserver {
-    fn new(quiet: bool) -> Self {
+    pub(super) fn new(quiet: bool) -> Self {
         CliComparisonObserver {
             quiet,
             bar: ProgressObserver::new(true),
         }
     }
 
-    fn finish(self) {
+    pub(super) fn finish(self) {
         self.bar.finish();
     }
 }
@@ -192,7 +200,7 @@ impl ComparisonObserver for CliComparisonObserver {
         }
     }
 
-    fn search_observer(&mut self) -> &mut dyn SearchObserver<LayerGenome> {
+    fn search_observer(&mut self) -> &mut dyn SearchObserver<AnyGenome> {
         &mut self.bar
     }
 
@@ -228,7 +236,7 @@ fn mean_sd(summary: &Summary) -> String {
 }
 
 /// The report as text tables.
-fn render_report(report: &ComparisonReport, comparison: &Comparison) -> String {
+pub(super) fn render_report(report: &ComparisonReport, comparison: &Comparison) -> String {
     let plan = comparison.plan();
     let objective = &report.objective;
     let mut out = format!(

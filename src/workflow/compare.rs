@@ -9,7 +9,7 @@
 
 use super::compare_plan::{ComparePlan, PlannedRun};
 use super::search_job::{resume_job, SearchJob};
-use crate::genome::LayerGenome;
+use crate::genome::AnyGenome;
 use crate::search::{
     Journal, JournalContents, QuietObserver, SearchEnding, SearchObserver, SearchOutcome,
 };
@@ -35,7 +35,7 @@ pub trait ComparisonObserver {
     fn run_starting(&mut self, position: usize, total: usize, run: &PlannedRun, state: RunState);
 
     /// The observer of the search of the run that is starting.
-    fn search_observer(&mut self) -> &mut dyn SearchObserver<LayerGenome>;
+    fn search_observer(&mut self) -> &mut dyn SearchObserver<AnyGenome>;
 
     /// Run `position` was already finished and is skipped.
     fn run_skipped(&mut self, _position: usize, _total: usize, _run: &PlannedRun) {}
@@ -53,7 +53,7 @@ pub struct QuietComparison {
 impl ComparisonObserver for QuietComparison {
     fn run_starting(&mut self, _: usize, _: usize, _: &PlannedRun, _: RunState) {}
 
-    fn search_observer(&mut self) -> &mut dyn SearchObserver<LayerGenome> {
+    fn search_observer(&mut self) -> &mut dyn SearchObserver<AnyGenome> {
         &mut self.search
     }
 }

@@ -9,7 +9,7 @@
 use super::data_source::DataSource;
 use super::search_job::{SearchJob, StrategyChoice};
 use crate::evaluate::TrainerSettings;
-use crate::genome::LayerSpace;
+use crate::genome::AnySpace;
 use crate::search::{AgingSettings, Budget};
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
@@ -79,8 +79,8 @@ pub struct ComparePlan {
     pub source: DataSource,
     /// SHA-256 of the data file when the comparison was planned.
     pub data_fingerprint: String,
-    /// The search space.
-    pub space: LayerSpace,
+    /// The search space (any encoding).
+    pub space: AnySpace,
     /// How candidates are trained and ranked.
     pub trainer: TrainerSettings,
 }
@@ -98,22 +98,22 @@ impl ComparePlan {
     /// A plan over the given runs; reads the data file to fingerprint it.
     pub fn new(
         source: DataSource,
-        space: LayerSpace,
+        space: impl Into<AnySpace>,
         trainer: TrainerSettings,
         strategies: Vec<ComparedStrategy>,
         seeds: Vec<u64>,
         evaluations: u64,
         jobs: usize,
     ) -> Result<ComparePlan> {
-        let bytes = std::fs::read(&source.path).map_err(|e| Error::io(&source.path, e))?;
+        let data_fingerprint = source.fingerprint()?;
         let plan = ComparePlan {
             strategies,
             seeds,
             evaluations,
             jobs,
             source,
-            data_fingerprint: crate::genome::sha256_hex(&bytes),
-            space,
+            data_fingerprint,
+            space: space.into(),
             trainer,
         };
         plan.check()?;

@@ -1,16 +1,61 @@
 //! Where a run's data comes from and how it is split, as recorded in the journal.
 
-use crate::data::{prepare, CsvOptions, Prepared, SplitFractions};
+use super::prepared::{InputPreprocessor, PreparedData};
+use crate::data::image::{
+    prepare_images, read_idx, read_image_folder, read_pixel_csv, ImageFolderOptions, ImageShape,
+    ImageTable,
+};
+use crate::data::{prepare, CsvOptions, SplitFractions};
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
-/// A CSV file and the options that turn it into sealed, prepared splits.
+/// What kind of data a source holds and how to read it.
+#[derive(Debug, Clone, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", tag = "kind", deny_unknown_fields)]
+pub enum DataFormat {
+    /// A CSV table: one row per example, feature columns of any kind, a label column.
+    #[default]
+    Table,
+    /// A CSV file whose feature columns are the pixels of `shape` (HWC order)
+    /// plus a label column.
+    PixelCsv {
+        /// Height, width and channels of every image.
+        shape: ImageShape,
+    },
+    /// A folder with one sub-folder of PNG/JPEG files per class.
+    ImageFolder {
+        /// Channels to convert to (1 or 3); `None` keeps the first image's.
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        channels: Option<u8>,
+        /// (height, width) to resize to; `None` refuses differing sizes.
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        resize: Option<(u32, u32)>,
+    },
+    /// An IDX images file (`path`) and its IDX labels file.
+    Idx {
+        /// The labels file.
+        labels: PathBuf,
+    },
+}
+
+impl DataFormat {
+    /// Whether this is a plain table (the default, left out of journals).
+    pub fn is_table(&self) -> bool {
+        *self == DataFormat::Table
+    }
+}
+
+/// A data file (or image folder) and the options that turn it into sealed,
+/// prepared splits.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct DataSource {
-    /// The CSV file, as the user named it.
+    /// The CSV file, image folder or IDX images file, as the user named it.
     pub path: PathBuf,
+    /// What the path holds; tables are the default and are not written out.
+    #[serde(default, skip_serializing_if = "DataFormat::is_table")]
+    pub format: DataFormat,
     /// Label column name (`None`: the last column).
     pub label: Option<String>,
     /// Field delimiter (`None`: comma).
@@ -29,6 +74,7 @@ impl DataSource {
     pub fn new(path: impl Into<PathBuf>) -> Self {
         DataSource {
             path: path.into(),
+            format: DataFormat::Table,
             label: None,
             delimiter: None,
             impute: false,
@@ -55,27 +101,89 @@ impl DataSource {
         })
     }
 
+    /// A source of images in a folder tree (one sub-folder per class).
+    pub fn image_folder(path: impl Into<PathBuf>) -> Self {
+        DataSource {
+            format: DataFormat::ImageFolder {
+                channels: None,
+                resize: None,
+            },
+            ..DataSource::new(path)
+        }
+    }
+
+    /// A source of images in IDX files.
+    pub fn idx(images: impl Into<PathBuf>, labels: impl Into<PathBuf>) -> Self {
+        DataSource {
+            format: DataFormat::Idx {
+                labels: labels.into(),
+            },
+            ..DataSource::new(images)
+        }
+    }
+
+    /// A source of images stored as pixel columns of a CSV file.
+    pub fn pixel_csv(path: impl Into<PathBuf>, shape: ImageShape) -> Self {
+        DataSource {
+            format: DataFormat::PixelCsv { shape },
+            ..DataSource::new(path)
+        }
+    }
+
+    /// SHA-256 (hex) identifying the data: of the file's bytes for CSV
+    /// files, of every image file (see the loaders) for folders and IDX.
+    pub fn fingerprint(&self) -> Result<String> {
+        match &self.format {
+            DataFormat::Table | DataFormat::PixelCsv { .. } => {
+                let bytes = std::fs::read(&self.path).map_err(|e| Error::io(&self.path, e))?;
+                Ok(crate::genome::sha256_hex(&bytes))
+            }
+            _ => Ok(self.read_images()?.fingerprint),
+        }
+    }
+
+    /// Whether the source holds images.
+    pub fn is_images(&self) -> bool {
+        !self.format.is_table()
+    }
+
+    /// Reads the images of an image source (not split, not standardised).
+    pub fn read_images(&self) -> Result<ImageTable> {
+        read_images_at(&self.path, &self.format, &self.csv_options()?)
+    }
+
     /// Loads, splits (test sealed) and preprocesses the data.
-    pub fn prepare(&self) -> Result<Prepared> {
+    pub fn prepare(&self) -> Result<PreparedData> {
         self.fractions.validate()?;
-        prepare(
+        if self.is_images() {
+            let table = self.read_images()?;
+            return Ok(prepare_images(&table, &self.fractions, self.split_seed)?.into());
+        }
+        Ok(prepare(
             &self.path,
             &self.csv_options()?,
             &self.fractions,
             self.split_seed,
-        )
+        )?
+        .into())
     }
 
     /// The journal header's `data` block: this source plus what was found in it.
-    pub fn header_block(&self, prepared: &Prepared) -> serde_json::Value {
+    pub fn header_block(&self, prepared: &PreparedData) -> serde_json::Value {
         let info = &prepared.info;
-        serde_json::json!({
+        let mut block = serde_json::json!({
             "source": self,
             "fingerprint": info.fingerprint,
             "rows": { "train": info.rows_train, "valid": info.rows_valid, "test": info.rows_test },
             "classes": info.class_names,
-            "features": prepared.preprocessor.feature_names(),
-        })
+        });
+        match &prepared.preprocessor {
+            InputPreprocessor::Table(p) => block["features"] = serde_json::json!(p.feature_names()),
+            InputPreprocessor::Image(p) => {
+                block["image_shape"] = serde_json::json!(p.shape.to_string())
+            }
+        }
+        block
     }
 
     /// Reads the source back from a journal header's `data` block.
@@ -95,5 +203,25 @@ impl DataSource {
             .ok_or_else(|| Error::input("the journal header's data block has no `fingerprint`"))?
             .to_string();
         Ok((source, fingerprint))
+    }
+}
+
+/// Reads images at `path` in `format` (a table format is an internal error).
+pub(crate) fn read_images_at(
+    path: &Path,
+    format: &DataFormat,
+    csv: &CsvOptions,
+) -> Result<ImageTable> {
+    match format {
+        DataFormat::Table => Err(Error::internal("a table source holds no images")),
+        DataFormat::PixelCsv { shape } => read_pixel_csv(path, *shape, csv),
+        DataFormat::ImageFolder { channels, resize } => read_image_folder(
+            path,
+            &ImageFolderOptions {
+                channels: *channels,
+                resize: *resize,
+            },
+        ),
+        DataFormat::Idx { labels } => read_idx(path, labels),
     }
 }

@@ -1,17 +1,19 @@
 //! The final evaluation: retrain the pick on train+validation, open the
 //! sealed test split once, record the opening in the journal, save the model.
 
+use super::prepared::PreparedData;
 use super::search_job::SearchJob;
 use super::wilson::wilson_interval;
 use crate::bundle::ModelBundle;
 use crate::data::Dataset;
 use crate::evaluate::scores_map;
-use crate::genome::LayerGenome;
+use crate::genome::AnyGenome;
+use crate::model::{train_genome, TrainedNetwork};
 use crate::search::seeds::derive;
 use crate::search::{Journal, JournalContents, RunLock, RunSummary};
-use crate::train::{score, train, Scores, TrainSettings, TrainStatus};
+use crate::train::{score, Scores, TrainSettings, TrainStatus};
 use crate::{Error, Result};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::Path;
 
@@ -47,7 +49,7 @@ impl Default for FinalizeOptions {
 }
 
 /// What the final evaluation found; also the body of the journal's test-opening record.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FinalReport {
     /// Why the split was opened.
     pub purpose: String,
@@ -58,7 +60,7 @@ pub struct FinalReport {
     /// Id of the chosen genome.
     pub id: String,
     /// The chosen genome.
-    pub genome: LayerGenome,
+    pub genome: AnyGenome,
     /// Its validation objective (mean over re-trainings when they were made).
     pub validation_objective: f64,
     /// How the pick was made.
@@ -83,9 +85,20 @@ pub struct FinalReport {
     pub model_dir: String,
 }
 
+impl FinalReport {
+    /// Reads a report back from a journal's test-opening record.
+    pub fn from_opening(record: &serde_json::Value) -> Result<FinalReport> {
+        serde_json::from_value(record.clone()).map_err(|e| {
+            Error::input(format!(
+                "a test-opening record of the journal is unreadable: {e}"
+            ))
+        })
+    }
+}
+
 struct Pick {
     index: u64,
-    genome: LayerGenome,
+    genome: AnyGenome,
     objective: f64,
     epochs: u32,
     selection: String,
@@ -103,7 +116,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
     if let Some(path) = &options.data {
         job.source.path = path.clone();
     }
-    let contents: JournalContents<LayerGenome> = Journal::read(&Journal::path_in(run_dir))?;
+    let contents: JournalContents<AnyGenome> = Journal::read(&Journal::path_in(run_dir))?;
     let openings = contents.openings.len();
     if openings > 0 && !options.reopen {
         return Err(Error::input(format!(
@@ -118,7 +131,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
             job.source.path.display()
         )));
     }
-    let pick = choose(&contents, &job, &prepared.train, &prepared.valid, options)?;
+    let pick = choose(&contents, &job, &prepared, options)?;
     let seed = derive(job.seed, FINAL_STREAM, openings as u64);
     let train_valid = prepared.train.concat(&prepared.valid);
     let settings = TrainSettings {
@@ -126,7 +139,15 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         patience: 0,
         seed,
     };
-    let outcome = train(&pick.genome, &train_valid, None, &settings)?;
+    let layout = prepared.layout();
+    let outcome = train_genome(
+        &pick.genome,
+        &train_valid,
+        None,
+        &layout,
+        &settings,
+        job.trainer.augment,
+    )?;
     if outcome.status == TrainStatus::Diverged {
         return Err(Error::input(format!(
             "the final training of {} diverged on train+validation; the test split stays sealed. Try --top-k 3 --repeats 3 to pick a steadier candidate",
@@ -134,7 +155,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         )));
     }
     let (test, _opening) = prepared.test.open("finalize");
-    let scores = test_scores(&outcome.model, &test)?;
+    let scores = test_scores(&outcome.network, &test)?;
     let correct = (scores.accuracy * test.len() as f64).round() as u64;
     let report = FinalReport {
         purpose: "finalize".into(),
@@ -168,22 +189,26 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         "test_scores": report.test_scores,
         "test_opening": report.opening,
     });
-    ModelBundle::new(outcome.model, prepared.preprocessor, provenance)
-        .save(&run_dir.join(FINAL_MODEL_DIR))?;
+    ModelBundle::new(
+        pick.genome,
+        outcome.network,
+        prepared.preprocessor,
+        provenance,
+    )
+    .save(&run_dir.join(FINAL_MODEL_DIR))?;
     Ok(report)
 }
 
-fn test_scores(model: &crate::train::TrainedModel, test: &Dataset) -> Result<Scores> {
+fn test_scores(model: &TrainedNetwork, test: &Dataset) -> Result<Scores> {
     let probabilities = model.predict_proba(&test.x, test.len())?;
     Ok(score(&probabilities, &test.y, test.n_classes))
 }
 
 /// The genome to finalize: the best record, or the best mean over re-trainings.
 fn choose(
-    contents: &JournalContents<LayerGenome>,
+    contents: &JournalContents<AnyGenome>,
     job: &SearchJob,
-    train_part: &Dataset,
-    valid: &Dataset,
+    prepared: &PreparedData,
     options: &FinalizeOptions,
 ) -> Result<Pick> {
     let summary = RunSummary::new(&contents.evaluations, usize::MAX);
@@ -191,7 +216,7 @@ fn choose(
     for record in &summary.top {
         if !distinct
             .iter()
-            .any(|r: &&crate::search::EvaluationRecord<LayerGenome>| r.id == record.id)
+            .any(|r: &&crate::search::EvaluationRecord<AnyGenome>| r.id == record.id)
         {
             distinct.push(record);
         }
@@ -235,7 +260,14 @@ fn choose(
                 patience: job.trainer.patience,
                 seed,
             };
-            let outcome = train(&record.genome, train_part, Some(valid), &settings)?;
+            let outcome = train_genome(
+                &record.genome,
+                &prepared.train,
+                Some(&prepared.valid),
+                &prepared.layout(),
+                &settings,
+                job.trainer.augment,
+            )?;
             let value = match (outcome.status, outcome.scores) {
                 (TrainStatus::Diverged, _) | (_, None) => f64::NEG_INFINITY,
                 (_, Some(s)) => job.trainer.objective.value(&s),

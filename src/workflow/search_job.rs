@@ -1,9 +1,9 @@
-//! A whole search on a CSV file: prepare the data, build the strategy and
-//! evaluator, and run or resume the journal in a run directory.
+//! A whole search on a table or on images: prepare the data, build the
+//! strategy and evaluator, and run or resume the journal in a run directory.
 
 use super::data_source::DataSource;
 use crate::evaluate::{TrainerSettings, TrainingEvaluator};
-use crate::genome::{LayerGenome, LayerSpace, SearchSpace};
+use crate::genome::{AnyGenome, AnySpace, SearchSpace};
 use crate::search::{
     resume_search, run_search, AgingEvolution, AgingSettings, Budget, Journal, JournalContents,
     RandomSampling, SearchContext, SearchObserver, SearchOutcome, SearchPlan, Strategy,
@@ -26,10 +26,10 @@ pub enum StrategyChoice {
 impl StrategyChoice {
     fn build(
         &self,
-        space: Arc<LayerSpace>,
+        space: Arc<AnySpace>,
         evaluations: u64,
-        seed_genomes: &[LayerGenome],
-    ) -> Result<Box<dyn Strategy<LayerGenome>>> {
+        seed_genomes: &[AnyGenome],
+    ) -> Result<Box<dyn Strategy<AnyGenome>>> {
         Ok(match self {
             StrategyChoice::Evolution(settings) => {
                 let settings = settings.unwrap_or_else(|| AgingSettings::for_budget(evaluations));
@@ -72,8 +72,9 @@ impl StrategyChoice {
 pub struct SearchJob {
     /// The data and its split.
     pub source: DataSource,
-    /// The layer search space.
-    pub space: LayerSpace,
+    /// The search space; its encoding (layers, image cells, table cells)
+    /// decides what networks are searched.
+    pub space: AnySpace,
     /// The strategy.
     pub strategy: StrategyChoice,
     /// How candidates are trained and ranked.
@@ -86,7 +87,7 @@ pub struct SearchJob {
     pub budget: Budget,
     /// Genomes aging evolution starts from instead of random samples (e.g.
     /// minimal networks that evolution grows); empty for random starts.
-    pub seed_genomes: Vec<LayerGenome>,
+    pub seed_genomes: Vec<AnyGenome>,
 }
 
 impl SearchJob {
@@ -94,7 +95,7 @@ impl SearchJob {
     pub fn new(source: DataSource) -> Self {
         SearchJob {
             source,
-            space: LayerSpace::default(),
+            space: AnySpace::default(),
             strategy: StrategyChoice::Evolution(None),
             trainer: TrainerSettings::default(),
             seed: 0,
@@ -128,9 +129,15 @@ impl SearchJob {
         self
     }
 
-    /// Sets the search space.
-    pub fn space(mut self, space: LayerSpace) -> Self {
-        self.space = space;
+    /// Sets the search space (a [`crate::genome::LayerSpace`], a cell space or an [`AnySpace`]).
+    pub fn space(mut self, space: impl Into<AnySpace>) -> Self {
+        self.space = space.into();
+        self
+    }
+
+    /// Sets the genomes aging evolution starts from.
+    pub fn seed_genomes(mut self, genomes: Vec<AnyGenome>) -> Self {
+        self.seed_genomes = genomes;
         self
     }
 
@@ -144,7 +151,7 @@ impl SearchJob {
     pub fn run(
         &self,
         run_dir: &Path,
-        observer: &mut dyn SearchObserver<LayerGenome>,
+        observer: &mut dyn SearchObserver<AnyGenome>,
         stop: &AtomicBool,
     ) -> Result<SearchOutcome> {
         if Journal::path_in(run_dir).exists() {
@@ -154,20 +161,58 @@ impl SearchJob {
                 run_dir.display()
             )));
         }
-        self.execute(run_dir, observer, stop, false)
+        self.execute(run_dir, observer, stop, None)
     }
 
-    fn execute(
-        &self,
-        run_dir: &Path,
-        observer: &mut dyn SearchObserver<LayerGenome>,
-        stop: &AtomicBool,
-        resume: bool,
-    ) -> Result<SearchOutcome> {
+    /// Checks the parts of the job fit together before any data is read.
+    fn check(&self) -> Result<()> {
         self.space.check()?;
         self.trainer.check()?;
         self.budget.check()?;
+        let encoding = self.space.encoding();
+        if encoding.needs_images() && !self.source.is_images() {
+            return Err(Error::input(format!(
+                "{}: the {encoding} encoding searches convolutional cells and needs image data; give --data DIR (one sub-folder per class), --data IMAGES --idx-labels LABELS, or --image-shape HxWxC for a CSV of pixel columns",
+                self.source.path.display()
+            )));
+        }
+        if self.trainer.augment && !encoding.needs_images() {
+            return Err(Error::input(
+                "--augment shifts images and applies to the cells_image encoding only",
+            ));
+        }
+        for (i, genome) in self.seed_genomes.iter().enumerate() {
+            self.space.validate(genome).map_err(|e| {
+                Error::input(format!(
+                    "seed genome {} is outside the search space: {e}",
+                    i + 1
+                ))
+            })?;
+        }
+        Ok(())
+    }
+
+    /// Runs (or with `fingerprint`, resumes) the search; a resumed run's data
+    /// must have the recorded fingerprint.
+    fn execute(
+        &self,
+        run_dir: &Path,
+        observer: &mut dyn SearchObserver<AnyGenome>,
+        stop: &AtomicBool,
+        fingerprint: Option<&str>,
+    ) -> Result<SearchOutcome> {
+        self.check()?;
         let prepared = self.source.prepare()?;
+        if let Some(recorded) = fingerprint {
+            if prepared.info.fingerprint != recorded {
+                return Err(Error::input(format!(
+                    "{}: the data changed since the run started (SHA-256 {} now, {} in the journal); resume with the original data (--data PATH if it moved)",
+                    self.source.path.display(),
+                    &prepared.info.fingerprint[..prepared.info.fingerprint.len().min(12)],
+                    &recorded[..recorded.len().min(12)]
+                )));
+            }
+        }
         for warning in &prepared.info.warnings {
             observer.on_warning(warning);
         }
@@ -189,11 +234,15 @@ impl SearchJob {
             trainer: serde_json::to_value(&self.trainer)
                 .map_err(|e| Error::internal(format!("trainer settings: {e}")))?,
         };
-        let evaluator = Arc::new(TrainingEvaluator::new(
-            prepared.train,
-            prepared.valid,
-            self.trainer.clone(),
-        ));
+        let evaluator = Arc::new(match prepared.preprocessor.image_shape() {
+            Some(shape) => TrainingEvaluator::for_images(
+                prepared.train,
+                prepared.valid,
+                shape,
+                self.trainer.clone(),
+            ),
+            None => TrainingEvaluator::new(prepared.train, prepared.valid, self.trainer.clone()),
+        });
         let context = SearchContext {
             space: space.as_ref(),
             evaluator,
@@ -201,7 +250,7 @@ impl SearchJob {
             observer,
             stop,
         };
-        if resume {
+        if fingerprint.is_some() {
             resume_search(run_dir, &plan, context)
         } else {
             run_search(run_dir, &plan, context)
@@ -213,16 +262,7 @@ impl SearchJob {
         let contents: JournalContents<Value> = Journal::read(&Journal::path_in(run_dir))?;
         let header = contents.header;
         let (source, fingerprint) = DataSource::from_header_block(&header.data)?;
-        let space_settings = header
-            .space
-            .get("settings")
-            .cloned()
-            .ok_or_else(|| Error::input("the journal header's space block has no settings"))?;
-        let space: LayerSpace = serde_json::from_value(space_settings).map_err(|e| {
-            Error::input(format!(
-                "the journal header's search space is unreadable: {e}"
-            ))
-        })?;
+        let space = AnySpace::from_description(&header.space)?;
         let trainer: TrainerSettings =
             serde_json::from_value(header.trainer.clone()).map_err(|e| {
                 Error::input(format!(
@@ -231,7 +271,7 @@ impl SearchJob {
             })?;
         let strategy =
             StrategyChoice::from_header(&header.strategy.name, &header.strategy.settings)?;
-        let seed_genomes: Vec<LayerGenome> = match header.strategy.settings.get("seed_genomes") {
+        let seed_genomes: Vec<AnyGenome> = match header.strategy.settings.get("seed_genomes") {
             Some(value) => serde_json::from_value(value.clone()).map_err(|e| {
                 Error::input(format!(
                     "the journal header's seed genomes are unreadable: {e}"
@@ -262,7 +302,7 @@ pub fn resume_job(
     run_dir: &Path,
     data: Option<PathBuf>,
     budget: Option<Budget>,
-    observer: &mut dyn SearchObserver<LayerGenome>,
+    observer: &mut dyn SearchObserver<AnyGenome>,
     stop: &AtomicBool,
 ) -> Result<SearchOutcome> {
     let (mut job, fingerprint) = SearchJob::from_run_dir(run_dir)?;
@@ -272,15 +312,5 @@ pub fn resume_job(
     if let Some(budget) = budget {
         job.budget = budget;
     }
-    let bytes = std::fs::read(&job.source.path).map_err(|e| Error::io(&job.source.path, e))?;
-    let now = crate::genome::sha256_hex(&bytes);
-    if now != fingerprint {
-        return Err(Error::input(format!(
-            "{}: the data file changed since the run started (SHA-256 {} now, {} in the journal); resume with the original file (--data PATH if it moved)",
-            job.source.path.display(),
-            &now[..12],
-            &fingerprint[..fingerprint.len().min(12)]
-        )));
-    }
-    job.execute(run_dir, observer, stop, true)
+    job.execute(run_dir, observer, stop, Some(&fingerprint))
 }
