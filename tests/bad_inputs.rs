@@ -578,6 +578,28 @@ fn unusual_but_valid_csv_files_load_correctly() {
         "{:?}",
         prepared.info.warnings
     );
+
+    let two_ways = good
+        .replace(",a\n", ",1\n")
+        .replace(",b\n", ",1.0\n")
+        .replace(",c\n", ",2\n");
+    let prepared = prepare(
+        &write(d, "two_ways.csv", two_ways),
+        &CsvOptions::default(),
+        &SplitFractions::default(),
+        0,
+    )
+    .expect("'1' and '1.0' are two classes");
+    assert_eq!(prepared.info.class_names, ["1", "1.0", "2"]);
+    assert!(
+        prepared
+            .info
+            .warnings
+            .iter()
+            .any(|w| w.contains("'1' and '1.0'") && w.contains("same number")),
+        "{:?}",
+        prepared.info.warnings
+    );
 }
 
 // ---------------------------------------------------------------- genome JSON

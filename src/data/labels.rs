@@ -64,7 +64,7 @@ pub(crate) fn class_index(names: &[String], text: &str) -> Option<u32> {
 pub(crate) fn label_warnings(table: &Table, names: &[String]) -> Vec<String> {
     let label = shorten(table.label_name(), QUOTE_CHARS);
     let mut warnings = Vec::new();
-    let numeric: Vec<(&String, f64)> = names
+    let mut numeric: Vec<(&String, f64)> = names
         .iter()
         .filter_map(|name| match parse_number(name) {
             NumberCell::Finite(value) => Some((name, value)),
@@ -83,9 +83,8 @@ pub(crate) fn label_warnings(table: &Table, names: &[String]) -> Vec<String> {
             shorten(text, QUOTE_CHARS)
         ));
     }
-    let mut by_value = numeric.clone();
-    by_value.sort_by(|a, b| a.1.total_cmp(&b.1));
-    if let Some(pair) = by_value.windows(2).find(|w| w[0].1 == w[1].1) {
+    numeric.sort_by(|a, b| a.1.total_cmp(&b.1));
+    if let Some(pair) = numeric.windows(2).find(|w| w[0].1 == w[1].1) {
         warnings.push(format!(
             "{}: the label column '{label}' holds '{}' and '{}', which are the same number \
              written two ways but count as two classes; write each class one way",
