@@ -210,6 +210,28 @@ fn time_batch_norm(rng: &mut ChaCha8Rng, x: &Tensor) -> Result<()> {
     )
 }
 
+fn time_elementwise(rng: &mut ChaCha8Rng, x: &Tensor) -> Result<()> {
+    compare(
+        "relu",
+        vec![
+            ("reference", Box::new(|| reference::relu(x))),
+            ("ops", Box::new(|| ops::relu(x))),
+        ],
+    )?;
+    let bias = random_var(rng, &[16])?;
+    let bias = bias.as_tensor();
+    compare(
+        "channel bias",
+        vec![
+            (
+                "reference",
+                Box::new(|| reference::add_channel_bias(x, bias)),
+            ),
+            ("ops", Box::new(|| ops::add_channel_bias(x, bias))),
+        ],
+    )
+}
+
 /// Image side: 8, or `OPS_QUICK_SIDE` from the environment (to see how the
 /// kernels scale; the recorded numbers use 8).
 fn image_side() -> usize {
@@ -225,7 +247,8 @@ fn run() -> Result<()> {
     let x = random_var(&mut rng, &[64, 16, side, side])?;
     time_convs(&mut rng, x.as_tensor())?;
     time_pools(x.as_tensor())?;
-    time_batch_norm(&mut rng, x.as_tensor())
+    time_batch_norm(&mut rng, x.as_tensor())?;
+    time_elementwise(&mut rng, x.as_tensor())
 }
 
 fn main() -> Result<()> {

@@ -221,6 +221,105 @@ fn print_run(strategy: &str, jobs: usize, stats: &RunStats, evaluations: u64) {
     );
 }
 
+/// What one round (the same search at 1 and at 2 jobs) measured.
+struct Round {
+    /// Evaluations per minute at 1 and at 2 jobs.
+    rates: [f64; 2],
+    /// Summed candidate seconds at 1 and at 2 jobs.
+    busy: [f64; 2],
+    /// Process CPU seconds at 1 and at 2 jobs.
+    cpu: [f64; 2],
+    /// Worker utilisation at 2 jobs.
+    utilisation: f64,
+    /// Scheduler efficiency at 2 jobs replayed from the 1-job candidate
+    /// times, with lag 2 (the old rule) and lag 6 (the current one).
+    replayed: [f64; 2],
+}
+
+/// Runs `options.rounds` rounds of `strategy`, alternating which job count goes first.
+fn measure(strategy: &str, options: &Options) -> Vec<Round> {
+    let mut rounds = Vec::new();
+    for round in 0..options.rounds {
+        let order: [usize; 2] = if round % 2 == 0 { [1, 2] } else { [2, 1] };
+        let mut result = Round {
+            rates: [0.0; 2],
+            busy: [0.0; 2],
+            cpu: [0.0; 2],
+            utilisation: 0.0,
+            replayed: [0.0; 2],
+        };
+        for jobs in order {
+            let stats = run_once(strategy, jobs, options);
+            print_run(strategy, jobs, &stats, options.evaluations);
+            let slot = jobs - 1;
+            result.rates[slot] = stats.per_minute(options.evaluations);
+            result.busy[slot] = stats.busy;
+            result.cpu[slot] = stats.cpu;
+            if jobs == 2 {
+                result.utilisation = stats.busy / (2.0 * stats.span);
+            } else {
+                let total: f64 = stats.durations.iter().sum();
+                for (replayed, lag) in result.replayed.iter_mut().zip([2, 6]) {
+                    *replayed = total / (2.0 * simulated_seconds(&stats.durations, 2, lag));
+                }
+            }
+        }
+        rounds.push(result);
+    }
+    rounds
+}
+
+/// The median over rounds of `value`.
+fn median_of(rounds: &[Round], value: impl Fn(&Round) -> f64) -> f64 {
+    median(&rounds.iter().map(value).collect::<Vec<_>>())
+}
+
+/// Prints the medians over rounds and one `result` line. Random search
+/// trains the same candidates at 1 and 2 jobs, so its throughput ratio is a
+/// parallel efficiency; aging evolution trains other candidates at 2 jobs
+/// (it sees results later), so for it the ratio is not one.
+fn summarise(strategy: &str, rounds: &[Round]) {
+    let (one, two) = (
+        median_of(rounds, |r| r.rates[0]),
+        median_of(rounds, |r| r.rates[1]),
+    );
+    let efficiency = two / (2.0 * one);
+    let per_round: Vec<String> = rounds
+        .iter()
+        .map(|r| format!("{:.3}", r.rates[1] / (2.0 * r.rates[0])))
+        .collect();
+    let label = if strategy == "random" {
+        "parallel efficiency"
+    } else {
+        "throughput ratio (other candidates at 2 jobs: not an efficiency)"
+    };
+    println!(
+        "{strategy}: jobs 1 median {one:.1} eval/min, jobs 2 median {two:.1} eval/min; \
+         {label} {efficiency:.3} (per round: {}); candidate seconds summed, median: \
+         jobs 1 {:.2}, jobs 2 {:.2}",
+        per_round.join(", "),
+        median_of(rounds, |r| r.busy[0]),
+        median_of(rounds, |r| r.busy[1]),
+    );
+    println!(
+        "{strategy}: worker utilisation at 2 jobs {:.3}; scheduler efficiency at 2 jobs replayed \
+         from the 1-job candidate times: lag 2 (old rule) {:.3}, lag 6 (current rule) {:.3}",
+        median_of(rounds, |r| r.utilisation),
+        median_of(rounds, |r| r.replayed[0]),
+        median_of(rounds, |r| r.replayed[1]),
+    );
+    if strategy == "random" {
+        println!(
+            "{strategy}: load-independent estimate (utilisation at 2 jobs x CPU s at 1 job / \
+             CPU s at 2 jobs): {:.3}",
+            median_of(rounds, |r| r.utilisation * r.cpu[0] / r.cpu[1])
+        );
+    }
+    println!(
+        "result bench=search_{strategy} jobs1_eval_per_min={one:.1} jobs2_eval_per_min={two:.1} ratio={efficiency:.3}"
+    );
+}
+
 fn main() {
     std::env::set_var("RAYON_NUM_THREADS", "1");
     let options = options();
@@ -250,65 +349,8 @@ fn main() {
         "tail s"
     );
     for strategy in &options.strategies {
-        let mut rates: [Vec<f64>; 2] = [Vec::new(), Vec::new()];
-        let mut busy: [Vec<f64>; 2] = [Vec::new(), Vec::new()];
-        let mut ratios = Vec::new();
-        let mut simulated: [Vec<f64>; 2] = [Vec::new(), Vec::new()];
-        let mut cpu_normalised = Vec::new();
-        for round in 0..options.rounds {
-            let order: [usize; 2] = if round % 2 == 0 { [1, 2] } else { [2, 1] };
-            let mut round_rates = [0.0; 2];
-            let mut round_cpu = [0.0; 2];
-            let mut utilisation_two = 0.0;
-            for jobs in order {
-                let stats = run_once(strategy, jobs, &options);
-                round_cpu[jobs - 1] = stats.cpu;
-                if jobs == 2 {
-                    utilisation_two = stats.busy / (2.0 * stats.span);
-                }
-                print_run(strategy, jobs, &stats, options.evaluations);
-                round_rates[jobs - 1] = stats.per_minute(options.evaluations);
-                if jobs == 1 {
-                    let total: f64 = stats.durations.iter().sum();
-                    for (slot, lag) in [(0, 2), (1, 6)] {
-                        let two = simulated_seconds(&stats.durations, 2, lag);
-                        simulated[slot].push(total / (2.0 * two));
-                    }
-                }
-                rates[jobs - 1].push(round_rates[jobs - 1]);
-                busy[jobs - 1].push(stats.busy);
-            }
-            ratios.push(round_rates[1] / (2.0 * round_rates[0]));
-            cpu_normalised.push(utilisation_two * round_cpu[0] / round_cpu[1]);
-        }
-        let (one, two) = (median(&rates[0]), median(&rates[1]));
-        let efficiency = two / (2.0 * one);
-        println!(
-            "{strategy}: jobs 1 median {one:.1} eval/min, jobs 2 median {two:.1} eval/min, \
-             parallel efficiency {efficiency:.3} (per round: {}); \
-             candidate seconds summed, median: jobs 1 {:.2}, jobs 2 {:.2}",
-            ratios
-                .iter()
-                .map(|r| format!("{r:.3}"))
-                .collect::<Vec<_>>()
-                .join(", "),
-            median(&busy[0]),
-            median(&busy[1]),
-        );
-        println!(
-            "{strategy}: scheduler efficiency at 2 jobs replayed from the 1-job candidate times \
-             (median over rounds): lag 2 (old rule) {:.3}, lag 6 (current rule) {:.3}",
-            median(&simulated[0]),
-            median(&simulated[1])
-        );
-        println!(
-            "{strategy}: load-independent estimate (worker utilisation at 2 jobs x CPU s at 1 job / \
-             CPU s at 2 jobs; equal work only for random search): {:.3}",
-            median(&cpu_normalised)
-        );
-        println!(
-            "result bench=search_{strategy} jobs1_eval_per_min={one:.1} jobs2_eval_per_min={two:.1} efficiency={efficiency:.3}"
-        );
+        let rounds = measure(strategy, &options);
+        summarise(strategy, &rounds);
     }
     println!("# load average at end: {}", load_average());
 }

@@ -204,3 +204,94 @@ fn failed(payload: &(dyn Any + Send)) -> Evaluation {
         message: Some(format!("the evaluator panicked: {text}")),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    //! Queue behaviour (common practice for a work queue, no outside source):
+    //! FIFO start order, taking back unstarted candidates, quiet shutdown.
+
+    use super::*;
+    use std::sync::mpsc::sync_channel;
+
+    /// Evaluates genome `g` by waiting for one message on `gate` first when
+    /// `g` is 0, so the single worker stays busy with candidate 0 until the
+    /// test lets it go.
+    struct Gated {
+        gate: Mutex<Receiver<()>>,
+    }
+
+    impl Evaluator<u32> for Gated {
+        fn evaluate(&self, genome: &u32, _seed: u64) -> Evaluation {
+            if *genome == 0 {
+                let gate = self.gate.lock().unwrap_or_else(|p| p.into_inner());
+                let _ = gate.recv();
+            }
+            Evaluation {
+                status: EvalStatus::Completed,
+                objective: Some(f64::from(*genome)),
+                scores: BTreeMap::new(),
+                params: None,
+                madds: None,
+                epochs: 1,
+                best_epoch: 1,
+                message: None,
+            }
+        }
+    }
+
+    fn wait_for(pool: &WorkerPool<u32>, index: u64) -> Finished {
+        let mut finished = BTreeMap::new();
+        let started = Instant::now();
+        while !finished.contains_key(&index) {
+            assert!(
+                started.elapsed() < Duration::from_secs(20),
+                "no result {index}"
+            );
+            pool.wait(Duration::from_millis(20), &mut finished)
+                .expect("workers alive");
+        }
+        finished.remove(&index).expect("present")
+    }
+
+    #[test]
+    fn queued_candidates_can_be_taken_back_before_they_start() {
+        let (open, gate) = sync_channel(1);
+        let evaluator = Arc::new(Gated {
+            gate: Mutex::new(gate),
+        });
+        let pool = WorkerPool::start(evaluator, 1).expect("pool");
+        pool.dispatch(0, 0, 0).expect("dispatch");
+        // The worker takes candidate 0 and blocks; wait until the queue is empty.
+        let started = Instant::now();
+        while !pool.queue.lock().tasks.is_empty() {
+            assert!(started.elapsed() < Duration::from_secs(20));
+            std::thread::yield_now();
+        }
+        pool.dispatch(1, 1, 0).expect("dispatch");
+        pool.dispatch(2, 2, 0).expect("dispatch");
+        assert_eq!(pool.cancel_queued(), vec![1, 2]);
+        open.send(()).expect("release candidate 0");
+        assert_eq!(wait_for(&pool, 0).evaluation.objective, Some(0.0));
+        // Later candidates still run, in order, after a cancellation.
+        pool.dispatch(3, 3, 0).expect("dispatch");
+        assert_eq!(wait_for(&pool, 3).evaluation.objective, Some(3.0));
+        let mut late = BTreeMap::new();
+        pool.collect_ready(&mut late);
+        assert!(late.is_empty(), "cancelled candidates never report");
+    }
+
+    #[test]
+    fn a_dropped_pool_closes_its_queue() {
+        let (_open, gate) = sync_channel(1);
+        let queue = {
+            let evaluator = Arc::new(Gated {
+                gate: Mutex::new(gate),
+            });
+            let pool = WorkerPool::<u32>::start(evaluator, 2).expect("pool");
+            pool.dispatch(5, 5, 0).expect("dispatch");
+            pool.queue.clone()
+        };
+        let state = queue.lock();
+        assert!(state.closed && state.tasks.is_empty());
+    }
+}

@@ -368,3 +368,21 @@ fn check_replay<G: PartialEq>(
         names.join(", ")
     )))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::proposal_lag;
+
+    #[test]
+    fn one_job_is_sequential_and_more_jobs_keep_three_per_worker_in_flight() {
+        // The rule documented in docs/journal.md ("Parallel runs").
+        assert_eq!(proposal_lag(1), 1);
+        assert_eq!(proposal_lag(2), 6);
+        assert_eq!(proposal_lag(8), 24);
+        assert_eq!(
+            proposal_lag(0),
+            1,
+            "0 jobs is refused earlier; never a lag of 0"
+        );
+    }
+}

@@ -1,6 +1,7 @@
 //! The convolutional op family of NASNet-style cells, as differentiable
 //! candle ops: grouped/dilated 2-D convolution, 3×3 max and average pooling
-//! with padding 1, global average pooling and batch normalisation.
+//! with padding 1, global average pooling, batch normalisation, ReLU and a
+//! per-channel bias.
 //!
 //! Inputs are f32 tensors in (N, C, H, W) layout on the CPU. Each function
 //! picks its kernel internally (custom candle ops with their own backward),
@@ -10,19 +11,25 @@
 //! cross-checks and timing.
 //!
 //! Forward + backward on a 64×16×8×8 input, one thread, µs (chosen kernel vs
-//! reference; benches/ops_quick.rs, thread CPU time on a loaded machine, ±30%):
+//! reference; benches/ops_quick.rs, median thread CPU time, quiet machine at
+//! load ~1, ±10%):
 //!
 //! | op | kernel | µs | reference µs |
 //! |---|---|---|---|
-//! | conv 3×3, pad 1 | im2col + gemm | 2,600 | 22,000 |
-//! | conv 3×3, stride 2 | im2col + gemm | 1,400 | 5,800 |
-//! | conv 1×1 | im2col + gemm | 450 | 3,300 |
-//! | conv 3×3, dilation 2 | im2col + gemm | 2,200 | 15,400 |
-//! | depthwise 3×3 (stride 1 / 2) | direct loops | 1,300 / 750 | 19,100 / 5,300 |
-//! | max pool 3×3 (stride 1 / 2) | separable | 2,000 / 550 | 16,900 / 3,300 |
-//! | avg pool 3×3 (stride 1 / 2) | separable | 510 / 320 | 11,000 / 2,250 |
-//! | global avg pool | candle `mean` | 40 | 40 |
-//! | batch norm (train / eval) | per-channel loops | 340 / 200 | 5,000 / 2,060 |
+//! | conv 3×3, pad 1 | im2col + gemm | 2,000 | 15,400 |
+//! | conv 3×3, stride 2 | im2col + gemm | 930 | 4,500 |
+//! | conv 1×1 | im2col + gemm | 240 | 2,400 |
+//! | conv 3×3, dilation 2 | im2col + gemm | 2,900 | 18,200 |
+//! | depthwise 3×3 (stride 1 / 2) | direct loops | 2,200 / 780 | 18,000 / 5,500 |
+//! | max pool 3×3 (stride 1 / 2) | separable | 1,250 / 630 | 13,200 / 3,250 |
+//! | avg pool 3×3 (stride 1 / 2) | separable | 460 / 310 | 7,650 / 2,200 |
+//! | global avg pool | candle `mean` | 32 | 34 |
+//! | batch norm (train / eval) | per-channel loops | 300 / 170 | 5,000 / 1,950 |
+//! | relu | one-pass backward | 84 | 345 |
+//! | channel bias | per-channel sums | 114 | 935 |
+//!
+//! (Depthwise 3×3 at stride 1 through im2col + gemm now measures 1,780; the
+//! direct kernel stays the choice so cell networks keep their exact results.)
 
 mod avg_pool_kernel;
 mod batch_norm;
