@@ -133,6 +133,11 @@ impl ModelBundle {
         let pre = description
             .input_preprocessor()
             .map_err(|e| Error::input(format!("{}: {e}", json_path.display())))?;
+        if let Some(image) = &description.image_preprocessor {
+            image
+                .check_resize()
+                .map_err(|e| Error::input(format!("{}: {e}", json_path.display())))?;
+        }
         if description.n_inputs != pre.n_features()
             || description.n_classes != pre.class_names().len()
         {

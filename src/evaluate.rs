@@ -4,10 +4,10 @@
 use crate::data::image::ImageShape;
 use crate::data::Dataset;
 use crate::genome::{AnyGenome, LayerGenome};
-use crate::model::{genome_cost, train_genome, training_memory_bytes, InputLayout};
+use crate::model::{genome_cost, train_genome_with_cut, training_memory_bytes, InputLayout};
 use crate::net::Cost;
 use crate::search::{EvalStatus, Evaluation, Evaluator};
-use crate::train::{Objective, Scores, TrainSettings, TrainStatus};
+use crate::train::{CurveCut, CutVerdict, Objective, Scores, TrainSettings, TrainStatus};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -43,6 +43,13 @@ pub struct TrainerSettings {
     /// only). Left out of the header when off.
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub augment: bool,
+    /// The learning-curve cut: stop a candidate whose validation curve
+    /// cannot reach the strategy's bar (aging evolution: the population's
+    /// worst objective) by its last epoch, and journal it as `curve_cut`
+    /// ([`crate::train::CurveWatch`]). Off by default; left out of the
+    /// header when off.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub curve_cut: bool,
 }
 
 impl Default for TrainerSettings {
@@ -57,6 +64,7 @@ impl Default for TrainerSettings {
             size_penalty: None,
             max_memory_mb: None,
             augment: false,
+            curve_cut: false,
         }
     }
 }
@@ -136,6 +144,31 @@ impl TrainingEvaluator {
         &self.settings
     }
 
+    /// The size penalty subtracted from a raw score for `params` parameters
+    /// (0 without `--size-penalty`); see [`penalised_objective`].
+    fn penalty(&self, params: u64) -> f64 {
+        match self.settings.size_penalty {
+            Some(lambda) => -penalised_objective(0.0, params, lambda),
+            None => 0.0,
+        }
+    }
+
+    /// The journal message of a cut candidate, in objective terms.
+    fn cut_message(&self, verdict: &CutVerdict, bar: f64, params: u64) -> String {
+        let penalty = self.penalty(params);
+        format!(
+            "learning-curve cut after epoch {} of {}: best {} so far {:.4}, rising at most {:.4} \
+             per epoch, projects to {:.4} by the last epoch, below the population's worst {:.4}",
+            verdict.epoch,
+            self.settings.max_epochs,
+            self.settings.objective.name(),
+            verdict.best - penalty,
+            verdict.slope,
+            verdict.projected - penalty,
+            bar
+        )
+    }
+
     /// Why `genome` is not trained (a cap it exceeds), if it is not.
     fn over_cap(&self, cost: &Cost, memory: u64) -> Option<String> {
         if let Some(cap) = self.settings.max_params.filter(|&cap| cost.params > cap) {
@@ -166,6 +199,13 @@ impl TrainingEvaluator {
 
 impl Evaluator<AnyGenome> for TrainingEvaluator {
     fn evaluate(&self, genome: &AnyGenome, seed: u64) -> Evaluation {
+        self.evaluate_with_bar(genome, seed, None)
+    }
+
+    /// With `curve_cut` on and a bar given, training stops once the
+    /// validation curve cannot reach the bar (converted to a raw score by
+    /// adding back the candidate's size penalty).
+    fn evaluate_with_bar(&self, genome: &AnyGenome, seed: u64, bar: Option<f64>) -> Evaluation {
         let mut evaluation = Evaluation {
             status: EvalStatus::Completed,
             objective: None,
@@ -197,13 +237,18 @@ impl Evaluator<AnyGenome> for TrainingEvaluator {
             patience: self.settings.patience,
             seed,
         };
-        let trained = train_genome(
+        let cut = bar.filter(|_| self.settings.curve_cut).map(|bar| CurveCut {
+            bar: bar + self.penalty(cost.params),
+            objective: self.settings.objective,
+        });
+        let trained = train_genome_with_cut(
             genome,
             &self.train,
             Some(&self.valid),
             &self.input,
             &settings,
             self.settings.augment,
+            cut,
         );
         match trained {
             Ok(outcome) => {
@@ -213,16 +258,17 @@ impl Evaluator<AnyGenome> for TrainingEvaluator {
                     TrainStatus::Completed => EvalStatus::Completed,
                     TrainStatus::EarlyStopped => EvalStatus::EarlyStopped,
                     TrainStatus::Diverged => EvalStatus::Diverged,
+                    TrainStatus::CurveCut => EvalStatus::CurveCut,
                 };
+                if let (Some(verdict), Some(bar)) = (outcome.cut, bar) {
+                    evaluation.message = Some(self.cut_message(&verdict, bar, cost.params));
+                }
                 if let Some(scores) = outcome
                     .scores
                     .filter(|_| outcome.status != TrainStatus::Diverged)
                 {
                     let raw = self.settings.objective.value(&scores);
-                    evaluation.objective = Some(match self.settings.size_penalty {
-                        Some(lambda) => penalised_objective(raw, cost.params, lambda),
-                        None => raw,
-                    });
+                    evaluation.objective = Some(raw - self.penalty(cost.params));
                     evaluation.scores = scores_map(&scores);
                 }
             }
@@ -239,5 +285,11 @@ impl Evaluator<LayerGenome> for TrainingEvaluator {
     /// As for [`AnyGenome::Layers`].
     fn evaluate(&self, genome: &LayerGenome, seed: u64) -> Evaluation {
         Evaluator::<AnyGenome>::evaluate(self, &AnyGenome::Layers(genome.clone()), seed)
+    }
+
+    /// As for [`AnyGenome::Layers`].
+    fn evaluate_with_bar(&self, genome: &LayerGenome, seed: u64, bar: Option<f64>) -> Evaluation {
+        let genome = AnyGenome::Layers(genome.clone());
+        Evaluator::<AnyGenome>::evaluate_with_bar(self, &genome, seed, bar)
     }
 }

@@ -6,7 +6,10 @@ use crate::data::image::ImageShape;
 use crate::data::Dataset;
 use crate::genome::{AnyGenome, Encoding, ImageCellGenome, TableCellGenome};
 use crate::net::{cell_cost, layer_cost, table_cell_cost, Cost, ImageCellNet, TableCellNet};
-use crate::train::{train, Scores, TrainSettings, TrainStatus, TrainedModel};
+use crate::train::{
+    train_with_cut, CurveCut, CutVerdict, Scores, TrainEngine, TrainSettings, TrainStatus,
+    TrainedModel,
+};
 use crate::{Error, Result};
 use candle_core::{Device, Tensor};
 use std::path::Path;
@@ -74,6 +77,8 @@ pub struct GenomeTrainOutcome {
     pub seconds: f64,
     /// The trained network.
     pub network: TrainedNetwork,
+    /// Why training was cut, when `status` is [`TrainStatus::CurveCut`].
+    pub cut: Option<CutVerdict>,
 }
 
 /// Trains the network `genome` describes on `train` (scored on `valid`) with
@@ -89,10 +94,24 @@ pub fn train_genome(
     settings: &TrainSettings,
     augment: bool,
 ) -> Result<GenomeTrainOutcome> {
+    train_genome_with_cut(genome, train_part, valid, input, settings, augment, None)
+}
+
+/// [`train_genome`] with an optional learning-curve cut (see
+/// [`crate::train::fit_with_cut`]); `None` trains exactly as [`train_genome`].
+pub fn train_genome_with_cut(
+    genome: &AnyGenome,
+    train_part: &Dataset,
+    valid: Option<&Dataset>,
+    input: &InputLayout,
+    settings: &TrainSettings,
+    augment: bool,
+    cut: Option<CurveCut>,
+) -> Result<GenomeTrainOutcome> {
     input.check(genome.encoding())?;
     Ok(match genome {
         AnyGenome::Layers(g) => {
-            let o = train(g, train_part, valid, settings)?;
+            let o = train_with_cut(g, train_part, valid, settings, TrainEngine::Fast, cut)?;
             GenomeTrainOutcome {
                 status: o.status,
                 scores: o.scores,
@@ -100,10 +119,11 @@ pub fn train_genome(
                 best_epoch: o.best_epoch,
                 seconds: o.seconds,
                 network: TrainedNetwork::Layers(o.model),
+                cut: o.cut,
             }
         }
         AnyGenome::TableCells(g) => {
-            let o = crate::net::train_table_cells(g, train_part, valid, settings)?;
+            let o = crate::net::train_table_cells_with_cut(g, train_part, valid, settings, cut)?;
             GenomeTrainOutcome {
                 status: o.status,
                 scores: o.scores,
@@ -111,11 +131,14 @@ pub fn train_genome(
                 best_epoch: o.best_epoch,
                 seconds: o.seconds,
                 network: TrainedNetwork::TableCells(o.network),
+                cut: o.cut,
             }
         }
         AnyGenome::ImageCells(g) => {
             let shape = input.image.expect("checked above");
-            let o = crate::net::train_image_cells(g, train_part, valid, shape, settings, augment)?;
+            let o = crate::net::train_image_cells_with_cut(
+                g, train_part, valid, shape, settings, augment, cut,
+            )?;
             GenomeTrainOutcome {
                 status: o.status,
                 scores: o.scores,
@@ -123,6 +146,7 @@ pub fn train_genome(
                 best_epoch: o.best_epoch,
                 seconds: o.seconds,
                 network: TrainedNetwork::ImageCells(o.network),
+                cut: o.cut,
             }
         }
     })

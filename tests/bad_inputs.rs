@@ -4,7 +4,7 @@
 //!
 //! Command-line cases run the built `gemmule` binary and check, for a refusal:
 //! exit code 2, exactly one `gemmule: error:` line on stderr (other stderr
-//! lines may only be warnings or the search's opening announcement), a message
+//! lines may only be warnings; a refused search prints nothing else at all), a message
 //! of at most 600 characters naming the facts needed to fix the input (file,
 //! line, column or field), no panic text, and no output folder (model or run
 //! directory) created or changed. Valid-but-unusual inputs (BOM, CRLF,
@@ -170,9 +170,7 @@ fn check_refusal(output: &Output, expected: &[String]) -> Vec<String> {
         problems.push(format!("{} error lines, expected 1", errors.len()));
     }
     for line in stderr.lines().filter(|l| !l.trim().is_empty()) {
-        let allowed = line.starts_with("gemmule: error:")
-            || line.starts_with("gemmule: warning:")
-            || line.starts_with("searching ");
+        let allowed = line.starts_with("gemmule: error:") || line.starts_with("gemmule: warning:");
         if !allowed {
             problems.push(format!("unexpected stderr line: {line:?}"));
         }
@@ -1074,6 +1072,99 @@ fn search_options() {
         ),
     ];
     run_table(cases);
+}
+
+/// A refused search prints its one error line and nothing else on stderr:
+/// not the "searching N members …" announcement, and no data warnings, which
+/// belong to a run that never starts (common practice, no source).
+#[test]
+fn refused_searches_print_only_the_error_line() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let d = dir.path();
+    let data = write(d, "good.csv", good_rows());
+    // Missing feature cells: a warning with --impute, a refusal without.
+    let mut rows = good_rows().lines().map(str::to_string).collect::<Vec<_>>();
+    for row in &mut rows[1..10] {
+        let first = row.find(',').expect("a comma");
+        row.replace_range(..first, "");
+    }
+    let holes = write(d, "holes.csv", rows.join("\n") + "\n");
+    let taken = d.join("taken");
+    let made = gemmule(&search_args(&data, &taken, &["--budget", "1"]));
+    assert_eq!(made.status.code(), Some(0), "{made:?}");
+    let run = d.join("run");
+    let cases: Vec<(PathBuf, PathBuf, Vec<&str>)> = vec![
+        (data.clone(), run.clone(), vec!["--budget", "0"]),
+        (
+            data.clone(),
+            run.clone(),
+            vec!["--budget", "4", "--population", "10"],
+        ),
+        (
+            data.clone(),
+            run.clone(),
+            vec!["--budget", "8", "--population", "4", "--sample-size", "5"],
+        ),
+        (
+            data.clone(),
+            run.clone(),
+            vec!["--budget", "8", "--sample-size", "0"],
+        ),
+        (data.clone(), run.clone(), vec!["--time-limit", "0"]),
+        (data.clone(), run.clone(), vec!["--epochs", "0"]),
+        (data.clone(), run.clone(), vec!["--size-penalty=-1"]),
+        (data.clone(), run.clone(), vec!["--augment"]),
+        (holes.clone(), run.clone(), vec!["--budget", "4"]),
+        (
+            holes.clone(),
+            run.clone(),
+            vec!["--budget", "4", "--population", "10", "--impute"],
+        ),
+        (data.clone(), taken.clone(), vec!["--budget", "1"]),
+    ];
+    let mut failures = Vec::new();
+    for (data, out, extra) in cases {
+        let mut args = search_args(&data, &out, &[]);
+        for pair in extra.chunks(2) {
+            // An option search_args already sets gets the case's value.
+            match args.iter().position(|a| a == pair[0]) {
+                Some(at) if pair.len() == 2 => args[at + 1] = pair[1].to_string(),
+                _ => args.extend(pair.iter().map(|a| a.to_string())),
+            }
+        }
+        let output = gemmule(&args);
+        let stderr = String::from_utf8_lossy(&output.stderr).to_string();
+        let lines: Vec<&str> = stderr.lines().filter(|l| !l.trim().is_empty()).collect();
+        if output.status.code() != Some(2)
+            || lines.len() != 1
+            || !lines[0].starts_with("gemmule: error:")
+        {
+            failures.push(format!(
+                "{} (exit {:?}):\n    {}",
+                extra.join(" "),
+                output.status.code(),
+                lines.join("\n    ")
+            ));
+        }
+        assert!(
+            !run.exists(),
+            "{} created {}",
+            extra.join(" "),
+            run.display()
+        );
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+    // A search that runs still announces itself, then warns.
+    let output = gemmule(&search_args(&holes, &run, &["--impute", "--budget", "1"]));
+    assert_eq!(output.status.code(), Some(0), "{output:?}");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    let lines: Vec<&str> = stderr.lines().collect();
+    assert!(lines.len() >= 2, "{stderr}");
+    assert!(lines[0].starts_with("searching "), "{stderr}");
+    assert!(
+        lines[1].starts_with("gemmule: warning: imputed"),
+        "{stderr}"
+    );
 }
 
 // ---------------------------------------------------------------- run directories

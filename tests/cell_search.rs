@@ -7,7 +7,10 @@
 //! folder and IDX files are written by the test itself from the digits with
 //! gemmule's writers (round-trip equality is checked in tests/image_data.rs).
 
-use gemmule::data::image::{read_pixel_csv, write_idx, write_image_folder, ImageShape};
+use gemmule::data::image::{
+    read_image_folder, read_pixel_csv, write_idx, write_image_folder, ImageFolderOptions,
+    ImageShape,
+};
 use gemmule::data::CsvOptions;
 use gemmule::genome::reference_image_cell_genome;
 use std::path::{Path, PathBuf};
@@ -248,6 +251,135 @@ fn png_folder_and_idx_sources_train_and_predict_the_same_images() {
     assert_ok(&p);
     assert_eq!(String::from_utf8_lossy(&p.stdout).lines().count(), 6);
     assert!(!text(&p).contains("accuracy on the labelled rows"));
+}
+
+/// The prediction rows of `predict` output without the row number and
+/// source columns: predicted class and probabilities.
+fn prediction_values(o: &Output) -> Vec<String> {
+    String::from_utf8_lossy(&o.stdout)
+        .lines()
+        .skip(1)
+        .map(|line| line.splitn(3, ',').nth(2).unwrap_or_default().to_string())
+        .collect()
+}
+
+/// `--resize` is kept in the model folder, and `predict` resizes images of
+/// another size with the training loader's resampling, so original-size
+/// images predict exactly like images resized beforehand by that loader
+/// (this tool's own contract, no outside source).
+#[test]
+fn a_resized_model_resizes_the_images_it_predicts() {
+    let dir = tempfile::tempdir().unwrap();
+    let csv = small_digits(dir.path(), 120);
+    let table = read_pixel_csv(
+        &csv,
+        ImageShape::new(8, 8, 1).unwrap(),
+        &CsvOptions::default(),
+    )
+    .unwrap();
+    let mut bytes_table = table.clone();
+    for v in &mut bytes_table.pixels {
+        *v = (*v * 15.0).min(255.0);
+    }
+    let folder = dir.path().join("png8");
+    write_image_folder(&bytes_table, &folder).unwrap();
+    // The same images resized to 6x6 by the folder loader, stored as PNG.
+    let resized = read_image_folder(
+        &folder,
+        &ImageFolderOptions {
+            channels: None,
+            resize: Some((6, 6)),
+        },
+    )
+    .unwrap();
+    assert_eq!(resized.shape, ImageShape::new(6, 6, 1).unwrap());
+    let folder6 = dir.path().join("png6");
+    write_image_folder(&resized, &folder6).unwrap();
+
+    let genome = dir.path().join("cells.json");
+    let json = serde_json::to_string(&reference_image_cell_genome()).unwrap();
+    std::fs::write(&genome, json).unwrap();
+    let model = dir.path().join("m-resize");
+    let o = gemmule(&[
+        "train",
+        "--data",
+        s(&folder),
+        "--resize",
+        "6x6",
+        "--genome",
+        s(&genome),
+        "--epochs",
+        "1",
+        "--out",
+        s(&model),
+    ]);
+    assert_ok(&o);
+    let description: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(model.join("model.json")).unwrap()).unwrap();
+    assert_eq!(
+        description["image_preprocessor"]["resize"],
+        serde_json::json!([6, 6])
+    );
+    assert_eq!(
+        description["image_preprocessor"]["shape"],
+        serde_json::json!({"height": 6, "width": 6, "channels": 1})
+    );
+
+    // Class folders of 8x8 images against the same images pre-resized.
+    let original = gemmule(&["predict", "--model", s(&model), "--data", s(&folder)]);
+    assert_ok(&original);
+    let pre_resized = gemmule(&["predict", "--model", s(&model), "--data", s(&folder6)]);
+    assert_ok(&pre_resized);
+    assert_eq!(prediction_values(&original).len(), 120);
+    assert_eq!(
+        prediction_values(&original),
+        prediction_values(&pre_resized)
+    );
+    assert!(text(&original).contains("accuracy on the labelled rows"));
+
+    // A flat folder of unlabelled 8x8 images: the same rows again.
+    let flat = dir.path().join("flat");
+    std::fs::create_dir(&flat).unwrap();
+    let first_class = std::fs::read_dir(&folder)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.is_dir())
+        .min()
+        .unwrap();
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&first_class)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    for p in files.iter().take(4) {
+        std::fs::copy(p, flat.join(p.file_name().unwrap())).unwrap();
+    }
+    let from_flat = gemmule(&["predict", "--model", s(&model), "--data", s(&flat)]);
+    assert_ok(&from_flat);
+    assert_eq!(
+        prediction_values(&from_flat),
+        prediction_values(&pre_resized)[..4].to_vec()
+    );
+
+    // A model trained without --resize keeps model.json free of the key
+    // (the bytes older gemmule versions wrote) and still refuses other sizes.
+    let plain = dir.path().join("m-plain");
+    assert_ok(&gemmule(&[
+        "train",
+        "--data",
+        s(&folder6),
+        "--genome",
+        s(&genome),
+        "--epochs",
+        "1",
+        "--out",
+        s(&plain),
+    ]));
+    let text_json = std::fs::read_to_string(plain.join("model.json")).unwrap();
+    assert!(!text_json.contains("resize"), "{text_json}");
+    let refused = gemmule(&["predict", "--model", s(&plain), "--data", s(&folder)]);
+    assert_eq!(refused.status.code(), Some(2), "{}", text(&refused));
+    assert!(text(&refused).contains("6x6x1"), "{}", text(&refused));
 }
 
 #[test]

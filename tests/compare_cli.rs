@@ -103,6 +103,33 @@ fn a_tiny_comparison_writes_runs_plan_and_table() {
     }
 }
 
+/// With `--size-penalty` the runs rank by the penalised objective, so the
+/// tables name that and not the bare score; test scores stay the raw score
+/// (this tool's own wording, as `gemmule show` prints it; no outside source).
+#[test]
+fn a_size_penalty_names_the_penalised_objective() {
+    let temp = tempfile::tempdir().expect("temp dir");
+    let out = temp.path().join("cmp");
+    let run = tiny_compare(&out, &["--size-penalty", "0.01"]);
+    assert_eq!(run.status.code(), Some(0), "{}", stderr(&run));
+    let table = stdout(&run);
+    for expected in [
+        "objective accuracy - 0.01*log10(params) (size penalty)",
+        "best validation accuracy - 0.01*log10(params) at the budget",
+        "Mann–Whitney U on the best accuracy - 0.01*log10(params) at the budget",
+        "test accuracy (first test opening",
+    ] {
+        assert!(
+            table.contains(expected),
+            "missing {expected:?} in:\n{table}"
+        );
+    }
+    assert!(
+        !table.contains("best validation accuracy at the budget"),
+        "{table}"
+    );
+}
+
 #[test]
 fn running_again_continues_without_redoing_finished_runs() {
     let temp = tempfile::tempdir().expect("temp dir");

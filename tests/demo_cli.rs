@@ -53,6 +53,23 @@ fn quick_demo_compares_finalizes_and_beats_the_baseline() {
         );
     }
     assert!(out.join("comparison/report.html").is_file());
+    // The roast table has missing cells, so every one of the six runs reads
+    // the same imputation warning; the demo prints each distinct warning once
+    // (common practice, no source: a repeated warning is noise).
+    let warnings: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.starts_with("gemmule: warning:"))
+        .collect();
+    assert!(
+        warnings.iter().any(|w| w.contains("imputed")),
+        "no imputation warning in:\n{stderr}"
+    );
+    let distinct: std::collections::BTreeSet<&&str> = warnings.iter().collect();
+    assert_eq!(
+        distinct.len(),
+        warnings.len(),
+        "repeated warnings:\n{stderr}"
+    );
     assert!(out.join("data/roast.csv").is_file());
     let (winner_valid, winner_test) = accuracy_on("winner", &stdout);
     let (base_valid, base_test) = accuracy_on("baseline", &stdout);

@@ -442,6 +442,7 @@ fn evaluator_records_raw_scores_and_the_penalised_objective() {
 /// A journal with one image-cell candidate and one derived from it.
 fn write_cell_run(dir: &std::path::Path) {
     let header = RunHeader {
+        lag: None,
         format: gemmule::search::JOURNAL_FORMAT,
         tool_version: gemmule::search::TOOL_VERSION.to_string(),
         strategy: StrategyInfo {

@@ -41,6 +41,15 @@ fn search_command(run: &Path, jobs: usize, budget: u64) -> Command {
     search_with(run, "evolution", jobs, budget)
 }
 
+/// [`search_command`], with the learning-curve cut when `cut` is set.
+fn search_maybe_cut(run: &Path, jobs: usize, budget: u64, cut: bool) -> Command {
+    let mut command = search_command(run, jobs, budget);
+    if cut {
+        command.arg("--curve-cut");
+    }
+    command
+}
+
 fn search_with(run: &Path, strategy: &str, jobs: usize, budget: u64) -> Command {
     let mut command = gemmule();
     command
@@ -73,11 +82,11 @@ fn evaluations_done(run: &Path) -> u64 {
 }
 
 /// Starts the victim: `search` while there is no journal, else `resume`.
-fn start_victim(run: &Path, jobs: usize) -> Child {
+fn start_victim(run: &Path, jobs: usize, cut: bool) -> Child {
     let mut command = if journal_path(run).exists() {
         resume_command(run)
     } else {
-        search_command(run, jobs, BUDGET)
+        search_maybe_cut(run, jobs, BUDGET, cut)
     };
     command
         .stdout(std::process::Stdio::null())
@@ -93,27 +102,34 @@ fn finish(mut command: Command) -> Output {
     output
 }
 
-fn killed_runs_end_with_the_uninterrupted_journal(jobs: usize) {
+fn killed_runs_end_with_the_uninterrupted_journal(jobs: usize, cut: bool) {
     let dir = tempfile::tempdir().expect("temp dir");
     let reference = dir.path().join("reference");
     let started = Instant::now();
-    finish(search_command(&reference, jobs, BUDGET));
+    finish(search_maybe_cut(&reference, jobs, BUDGET, cut));
     // Wall times only scale the kill moments; no result depends on them.
     let run_ms = started.elapsed().as_millis() as u64;
     let started = Instant::now();
     finish(resume_command(&reference));
     let startup_ms = started.elapsed().as_millis() as u64;
     let expected = std::fs::read(journal_path(&reference)).expect("reference journal");
+    if cut {
+        let text = String::from_utf8_lossy(&expected);
+        assert!(
+            text.contains(r#""status":"curve_cut""#),
+            "the run with the cut cuts some candidates"
+        );
+    }
 
     let victim = dir.path().join("victim");
-    let mut rng = ChaCha8Rng::seed_from_u64(20_240_917 + jobs as u64);
+    let mut rng = ChaCha8Rng::seed_from_u64(20_240_917 + jobs as u64 + 10 * u64::from(cut));
     let mut killed_running = 0;
     for kill in 0..KILLS {
         let left = BUDGET - evaluations_done(&victim).min(BUDGET);
         // Spread the kills over what is left of the run, and over start-up.
         let span = startup_ms + 2 * run_ms * left / BUDGET / (KILLS - kill) as u64;
         let delay = rng.gen_range(0..=span.max(1));
-        let mut child = start_victim(&victim, jobs);
+        let mut child = start_victim(&victim, jobs, cut);
         std::thread::sleep(Duration::from_millis(delay));
         match child.try_wait().expect("child status") {
             Some(status) => {
@@ -134,7 +150,7 @@ fn killed_runs_end_with_the_uninterrupted_journal(jobs: usize) {
     let last = if journal_path(&victim).exists() {
         resume_command(&victim)
     } else {
-        search_command(&victim, jobs, BUDGET)
+        search_maybe_cut(&victim, jobs, BUDGET, cut)
     };
     finish(last);
     let journal = std::fs::read(journal_path(&victim)).expect("victim journal");
@@ -147,12 +163,18 @@ fn killed_runs_end_with_the_uninterrupted_journal(jobs: usize) {
 
 #[test]
 fn twenty_kills_with_one_job_end_with_the_uninterrupted_journal() {
-    killed_runs_end_with_the_uninterrupted_journal(1);
+    killed_runs_end_with_the_uninterrupted_journal(1, false);
 }
 
 #[test]
 fn twenty_kills_with_two_jobs_end_with_the_uninterrupted_journal() {
-    killed_runs_end_with_the_uninterrupted_journal(2);
+    killed_runs_end_with_the_uninterrupted_journal(2, false);
+}
+
+#[test]
+fn twenty_kills_of_a_run_with_the_curve_cut_end_with_the_uninterrupted_journal() {
+    // The bar each candidate is cut against is derived again on resume.
+    killed_runs_end_with_the_uninterrupted_journal(2, true);
 }
 
 /// Waits until `path` exists (the child got that far), or fails after a minute.

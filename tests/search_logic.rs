@@ -301,3 +301,24 @@ fn the_summary_ranks_and_traces_the_best_so_far() {
         vec![None, Some(2.0), Some(2.0), Some(3.0), Some(3.0)]
     );
 }
+
+#[test]
+fn the_cut_bar_is_the_worst_scored_member_of_a_full_population() {
+    // The rule documented in docs/strategies.md ("The learning-curve cut").
+    let mut strategy = evolution(3, 2);
+    assert_eq!(strategy.cut_bar(), None, "empty population");
+    observe_all(&mut strategy, &[Some(0.7), None]);
+    assert_eq!(strategy.cut_bar(), None, "population not full yet");
+    let mut full = evolution(3, 2);
+    observe_all(&mut full, &[Some(0.7), None, Some(0.9)]);
+    assert_eq!(full.cut_bar(), Some(0.7), "unscored members are left out");
+    let mut unscored = evolution(2, 1);
+    observe_all(&mut unscored, &[None, None]);
+    assert_eq!(unscored.cut_bar(), None, "no scored member, no bar");
+    // The oldest member leaves: after 0.7 ages out the bar rises.
+    let mut aging = evolution(2, 1);
+    observe_all(&mut aging, &[Some(0.7), Some(0.9), Some(0.8)]);
+    assert_eq!(aging.cut_bar(), Some(0.8));
+    let random: RandomSampling<MatchSpace> = RandomSampling::new(Arc::new(MatchSpace));
+    assert_eq!(random.cut_bar(), None, "random search keeps no population");
+}

@@ -500,3 +500,107 @@ fn a_journal_that_does_not_replay_is_refused() {
         "{message}"
     );
 }
+
+#[test]
+fn each_candidate_gets_the_worst_objective_of_the_population_it_was_proposed_from() {
+    // The bar of aging evolution (src/search/aging.rs `cut_bar`): the worst
+    // objective of the population the proposal saw, once it holds P members.
+    // With lag L (1 for one job, 3 × jobs for more) proposal k saw the results
+    // 0..=k − L, so its population was the records k − L − P + 1 ..= k − L.
+    const POPULATION: u64 = 6;
+    for (jobs, lag) in [(1usize, 1u64), (2, 6)] {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let mut evaluator = MatchEvaluator::new(target(RUN_SEED));
+        evaluator.record_bar = true;
+        session(
+            dir.path(),
+            Kind::Evolution,
+            &plan(jobs, BUDGET),
+            false,
+            None,
+            Arc::new(evaluator),
+        )
+        .expect("run");
+        let contents: JournalContents<Vec<u8>> =
+            Journal::read(&Journal::path_in(dir.path())).expect("readable");
+        assert_eq!(contents.header.lag(), lag);
+        let records = &contents.evaluations;
+        for record in records {
+            let k = record.index;
+            let bar = record.scores.get("bar").copied();
+            if k + 1 < POPULATION + lag {
+                assert_eq!(bar, None, "{jobs} jobs, candidate {k}: population not full");
+                continue;
+            }
+            let seen = (k + 1 - lag - POPULATION)..=(k - lag);
+            let worst = seen
+                .map(|i| {
+                    records[i as usize]
+                        .objective
+                        .expect("toy scores every genome")
+                })
+                .fold(f64::INFINITY, f64::min);
+            assert_eq!(bar, Some(worst), "{jobs} jobs, candidate {k}");
+        }
+    }
+}
+
+#[test]
+fn a_journal_of_the_first_parallel_rule_resumes_with_that_rule() {
+    // Journals written before the header recorded `lag` used lag = jobs.
+    // Such a run (simulated by removing the field from a run whose first
+    // POPULATION candidates are random samples either way) must resume with
+    // its own rule, deterministically, and not with today's lag.
+    let dir = tempfile::tempdir().expect("temp dir");
+    session(
+        dir.path(),
+        Kind::Evolution,
+        &plan(2, 6),
+        false,
+        None,
+        sleepy(),
+    )
+    .expect("start");
+    let path = Journal::path_in(dir.path());
+    let text = std::fs::read_to_string(&path).expect("journal");
+    assert!(
+        text.contains(",\"lag\":6,"),
+        "today's header records the lag"
+    );
+    std::fs::write(&path, text.replacen(",\"lag\":6,", ",", 1)).expect("rewrite header");
+    session(
+        dir.path(),
+        Kind::Evolution,
+        &plan(2, BUDGET),
+        true,
+        None,
+        sleepy(),
+    )
+    .expect("an old-rule journal resumes");
+    let old_rule = journal_bytes(dir.path());
+    assert!(!String::from_utf8_lossy(&old_rule).contains("\"lag\""));
+    // Stopping it anywhere and resuming again gives the same bytes.
+    let again = tempfile::tempdir().expect("temp dir");
+    let lines: Vec<&[u8]> = old_rule.split_inclusive(|&b| b == b'\n').collect();
+    std::fs::write(Journal::path_in(again.path()), lines[..11].concat()).expect("truncate");
+    session(
+        again.path(),
+        Kind::Evolution,
+        &plan(2, BUDGET),
+        true,
+        None,
+        sleepy(),
+    )
+    .expect("resumes again");
+    assert!(journal_bytes(again.path()) == old_rule);
+    // And it differs from a run made with today's lag after the first population.
+    let (_today, today) = reference(Kind::Evolution, 2);
+    let records = |bytes: &[u8]| -> Vec<Vec<u8>> {
+        bytes
+            .split(|&b| b == b'\n')
+            .skip(7)
+            .map(<[u8]>::to_vec)
+            .collect()
+    };
+    assert_ne!(records(&old_rule), records(&today), "the lag was honoured");
+}

@@ -503,6 +503,11 @@ pub struct SearchArgs {
     /// Shift training images by up to one pixel (seeded; cells_image only).
     #[arg(long)]
     pub augment: bool,
+    /// Stop training a candidate once its validation curve, extrapolated
+    /// optimistically, cannot reach the population's worst score by its last
+    /// epoch (journaled as curve_cut; aging evolution only).
+    #[arg(long)]
+    pub curve_cut: bool,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,

@@ -138,7 +138,7 @@ fn predict_command(a: PredictArgs) -> Result<i32> {
             };
             let images = crate::workflow::read_prediction_images(
                 &a.data,
-                pre.shape,
+                pre,
                 a.idx_labels.as_deref(),
                 &csv,
             )?;
@@ -284,6 +284,14 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
                 )
                 .into());
             }
+            if a.curve_cut {
+                return Err(Error::input(
+                    "--curve-cut measures candidates against the population's worst score, and \
+                     random search keeps no population, so nothing would be cut: drop \
+                     --curve-cut or use --strategy evolution",
+                )
+                .into());
+            }
             StrategyChoice::Random
         }
         StrategyArg::Evolution => {
@@ -320,6 +328,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             size_penalty: a.size_penalty,
             max_memory_mb: a.max_memory_mb,
             augment: a.augment,
+            curve_cut: a.curve_cut,
         },
         seed: a.seed,
         jobs,
@@ -343,7 +352,9 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             })?;
         }
     }
-    eprintln!(
+    // Printed by the observer once the run has started, so that every
+    // refusal (options, data, an existing run) prints only its error line.
+    let start_line = format!(
         "searching {} members of the {} space with {} ({} evaluations, {} jobs, seed {})",
         job.space.size(),
         job.space.encoding(),
@@ -357,10 +368,59 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
         jobs,
         job.seed
     );
-    let mut observer = ProgressObserver::new(a.quiet);
+    let mut observer = StartLine::new(start_line, ProgressObserver::new(a.quiet));
     let outcome = job.run(&a.out, &mut observer, stop);
-    observer.finish();
+    observer.inner.finish();
     report_outcome(&a.out, outcome?)
+}
+
+/// Prints the search's opening line when the run really starts (the first
+/// `on_start`, after every check), and holds back warnings until then, so a
+/// refused search prints nothing but its error.
+struct StartLine {
+    line: Option<String>,
+    held: Vec<String>,
+    inner: ProgressObserver,
+}
+
+impl StartLine {
+    fn new(line: String, inner: ProgressObserver) -> Self {
+        StartLine {
+            line: Some(line),
+            held: Vec::new(),
+            inner,
+        }
+    }
+}
+
+impl crate::search::SearchObserver<AnyGenome> for StartLine {
+    fn on_start(&mut self, already_done: u64, budget: u64) {
+        if let Some(line) = self.line.take() {
+            eprintln!("{line}");
+            for warning in std::mem::take(&mut self.held) {
+                self.inner.on_warning(&warning);
+            }
+        }
+        self.inner.on_start(already_done, budget);
+    }
+
+    fn on_commit(
+        &mut self,
+        record: &crate::search::EvaluationRecord<AnyGenome>,
+        best_so_far: Option<f64>,
+        done: u64,
+        budget: u64,
+    ) {
+        self.inner.on_commit(record, best_so_far, done, budget);
+    }
+
+    fn on_warning(&mut self, message: &str) {
+        if self.line.is_some() {
+            self.held.push(message.to_string());
+        } else {
+            self.inner.on_warning(message);
+        }
+    }
 }
 
 /// Reads one genome or a JSON array of genomes.

@@ -6,7 +6,7 @@ use super::progress::ProgressObserver;
 use super::EXIT_INTERRUPTED;
 use crate::evaluate::TrainerSettings;
 use crate::genome::AnyGenome;
-use crate::search::{SearchObserver, SearchOutcome};
+use crate::search::{EvaluationRecord, SearchObserver, SearchOutcome};
 use crate::stats::{Summary, DEFAULT_RESAMPLES};
 use crate::train::Objective;
 use crate::workflow::{
@@ -16,6 +16,7 @@ use crate::workflow::{
 use crate::Error;
 use anyhow::Result;
 use clap::Args;
+use std::collections::BTreeSet;
 use std::path::PathBuf;
 use std::sync::atomic::AtomicBool;
 
@@ -76,6 +77,10 @@ pub struct CompareArgs {
     /// Shift training images by up to one pixel (seeded; cells_image only).
     #[arg(long)]
     pub augment: bool,
+    /// Learning-curve cut for the evolution runs (see `search --curve-cut`);
+    /// random search keeps no population, so its candidates always train in full.
+    #[arg(long)]
+    pub curve_cut: bool,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,
@@ -160,6 +165,7 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
         size_penalty: a.size_penalty,
         max_memory_mb: a.max_memory_mb,
         augment: a.augment,
+        curve_cut: a.curve_cut,
     };
     let source = a.data.source()?;
     let space = a.space.any_space(source.is_images())?;
@@ -171,26 +177,63 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
 /// Per-run lines and a progress bar per run, on standard error.
 pub(super) struct CliComparisonObserver {
     quiet: bool,
-    bar: ProgressObserver,
+    search: OnceWarnings,
 }
 
 impl CliComparisonObserver {
     pub(super) fn new(quiet: bool) -> Self {
         CliComparisonObserver {
             quiet,
-            bar: ProgressObserver::new(true),
+            search: OnceWarnings {
+                bar: ProgressObserver::new(true),
+                seen: BTreeSet::new(),
+            },
         }
     }
 
     pub(super) fn finish(self) {
-        self.bar.finish();
+        self.search.bar.finish();
+    }
+
+    /// Puts `fresh` in place of the current run's bar and removes the old one.
+    fn replace_bar(&mut self, fresh: ProgressObserver) {
+        std::mem::replace(&mut self.search.bar, fresh).finish();
+    }
+}
+
+/// The current run's progress bar; passes on each distinct warning once per
+/// comparison, since every run of it reads the same data (an imputation
+/// warning would otherwise repeat for every strategy and seed).
+struct OnceWarnings {
+    bar: ProgressObserver,
+    seen: BTreeSet<String>,
+}
+
+impl SearchObserver<AnyGenome> for OnceWarnings {
+    fn on_start(&mut self, already_done: u64, budget: u64) {
+        self.bar.on_start(already_done, budget);
+    }
+
+    fn on_commit(
+        &mut self,
+        record: &EvaluationRecord<AnyGenome>,
+        best_so_far: Option<f64>,
+        done: u64,
+        budget: u64,
+    ) {
+        self.bar.on_commit(record, best_so_far, done, budget);
+    }
+
+    fn on_warning(&mut self, message: &str) {
+        if self.seen.insert(message.to_string()) {
+            self.bar.on_warning(message);
+        }
     }
 }
 
 impl ComparisonObserver for CliComparisonObserver {
     fn run_starting(&mut self, position: usize, total: usize, run: &PlannedRun, state: RunState) {
-        let fresh = ProgressObserver::new(self.quiet);
-        std::mem::replace(&mut self.bar, fresh).finish();
+        self.replace_bar(ProgressObserver::new(self.quiet));
         if !self.quiet {
             let what = match state {
                 RunState::Unfinished(done) => format!("continuing after {done} evaluations"),
@@ -201,7 +244,7 @@ impl ComparisonObserver for CliComparisonObserver {
     }
 
     fn search_observer(&mut self) -> &mut dyn SearchObserver<AnyGenome> {
-        &mut self.bar
+        &mut self.search
     }
 
     fn run_skipped(&mut self, position: usize, total: usize, run: &PlannedRun) {
@@ -214,8 +257,7 @@ impl ComparisonObserver for CliComparisonObserver {
     }
 
     fn run_ended(&mut self, run: &PlannedRun, outcome: &SearchOutcome) {
-        let fresh = ProgressObserver::new(true);
-        std::mem::replace(&mut self.bar, fresh).finish();
+        self.replace_bar(ProgressObserver::new(true));
         if !self.quiet {
             let best = outcome
                 .best
@@ -225,6 +267,15 @@ impl ComparisonObserver for CliComparisonObserver {
                 run.dir_name, outcome.evaluations
             );
         }
+    }
+}
+
+/// The name of what candidates were ranked by: the objective's name, or
+/// `NAME - λ*log10(params)` with a size penalty (as `gemmule show` writes it).
+fn ranked_by(objective: &str, size_penalty: Option<f64>) -> String {
+    match size_penalty {
+        Some(lambda) => format!("{objective} - {lambda}*log10(params)"),
+        None => objective.to_string(),
     }
 }
 
@@ -238,13 +289,21 @@ fn mean_sd(summary: &Summary) -> String {
 /// The report as text tables.
 pub(super) fn render_report(report: &ComparisonReport, comparison: &Comparison) -> String {
     let plan = comparison.plan();
-    let objective = &report.objective;
+    // What the runs ranked by: the validation score, or with --size-penalty
+    // the penalised value (the test scores below stay the raw score).
+    let objective = ranked_by(&report.objective, plan.trainer.size_penalty);
+    let score = &report.objective;
     let mut out = format!(
-        "comparison in {}: {} strategies × {} seeds, {} evaluations per run, objective {objective}\n",
+        "comparison in {}: {} strategies × {} seeds, {} evaluations per run, objective {objective}{}\n",
         comparison.dir().display(),
         plan.strategies.len(),
         plan.seeds.len(),
-        report.evaluations
+        report.evaluations,
+        if plan.trainer.size_penalty.is_some() {
+            " (size penalty)"
+        } else {
+            ""
+        }
     );
     out.push_str(&format!(
         "\nbest validation {objective} at the budget (over seeds)\n{:<10} {:>4}  {:<17} {:>7} {:>7} {:>7}\n",
@@ -287,7 +346,7 @@ pub(super) fn render_report(report: &ComparisonReport, comparison: &Comparison) 
         ));
     }
     out.push_str(&format!(
-        "\ntest {objective} (first test opening of finalized runs)\n"
+        "\ntest {score} (first test opening of finalized runs)\n"
     ));
     if report.strategies.iter().all(|s| s.test_score.is_none()) {
         out.push_str(&format!(

@@ -137,6 +137,14 @@ fn print_text(
         ),
         None => println!("encoding {encoding}; ranked by validation {objective}"),
     }
+    let max_epochs = h
+        .trainer
+        .get("max_epochs")
+        .and_then(Value::as_u64)
+        .map_or(0, |e| u32::try_from(e).unwrap_or(u32::MAX));
+    if h.trainer.get("curve_cut").and_then(Value::as_bool) == Some(true) {
+        println!("learning-curve cut on: candidates that cannot reach the population's worst score stop early");
+    }
     if let Some(source) = h.data.get("source") {
         let classes = h
             .data
@@ -208,6 +216,23 @@ fn print_text(
         .count();
     if failed > 0 {
         println!("\n{failed} evaluation(s) failed; their messages are in the journal");
+    }
+    let cut = contents
+        .evaluations
+        .iter()
+        .filter(|r| r.status == EvalStatus::CurveCut)
+        .count();
+    if cut > 0 {
+        let epochs_cut: u64 = contents
+            .evaluations
+            .iter()
+            .filter(|r| r.status == EvalStatus::CurveCut)
+            .map(|r| u64::from(max_epochs.saturating_sub(r.epochs)))
+            .sum();
+        println!(
+            "\n{cut} evaluation(s) stopped by the learning-curve cut (status curve_cut), \
+             {epochs_cut} epoch(s) not trained; their projections are in the journal"
+        );
     }
     Ok(0)
 }

@@ -21,6 +21,7 @@ pub use cell_cost::{
 pub use cell_net::{
     train_image_cells, train_table_cells, CellTrainOutcome, ImageCellNet, TableCellNet,
 };
+pub(crate) use cell_net::{train_image_cells_with_cut, train_table_cells_with_cut};
 pub use cost::{layer_cost, Cost};
 pub use mlp::Mlp;
 pub use param_spec::{parameter_specs, ParameterSpec};

@@ -195,6 +195,22 @@ impl<S: SearchSpace> Strategy<S::Genome> for AgingEvolution<S> {
         }
     }
 
+    /// The worst objective among the scored members once the population is
+    /// full: a child that cannot beat it would rank below every scored
+    /// member. `None` while the population fills up or when no member has a
+    /// score. Members without a score (diverged, failed, over budget) are
+    /// left out, so one of them does not switch the cut off for P evaluations.
+    fn cut_bar(&self) -> Option<f64> {
+        if self.population.len() < self.settings.population {
+            return None;
+        }
+        self.population
+            .iter()
+            .filter_map(|member| member.objective)
+            .filter(|value| value.is_finite())
+            .reduce(f64::min)
+    }
+
     fn observe(&mut self, index: u64, genome: &S::Genome, evaluation: &Evaluation) {
         self.population.push_back(Member {
             index,

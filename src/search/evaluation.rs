@@ -17,6 +17,11 @@ pub enum EvalStatus {
     OverBudget,
     /// The evaluation failed (e.g. a panic in the worker); see `message`.
     Failed,
+    /// Stopped early by the learning-curve cut: its validation curve could not
+    /// reach the strategy's bar (the population's worst objective) by the end
+    /// of its epoch budget. Scored with its best weights so far; `message`
+    /// gives the projection.
+    CurveCut,
 }
 
 /// The result of evaluating one genome once.
@@ -47,4 +52,16 @@ pub struct Evaluation {
 pub trait Evaluator<G>: Send + Sync {
     /// Evaluates `genome`, with every random choice drawn from `seed`.
     fn evaluate(&self, genome: &G, seed: u64) -> Evaluation;
+
+    /// Evaluates `genome` knowing the strategy's bar: the objective the
+    /// candidate must be able to beat to matter to the strategy
+    /// ([`Strategy::cut_bar`](super::Strategy::cut_bar); `None` when there is
+    /// none). An evaluator may stop a candidate that cannot reach it and
+    /// report [`EvalStatus::CurveCut`]; the default ignores the bar. The
+    /// scheduler calls this, so the result must be deterministic in
+    /// (`genome`, `seed`, `bar`).
+    fn evaluate_with_bar(&self, genome: &G, seed: u64, bar: Option<f64>) -> Evaluation {
+        let _ = bar;
+        self.evaluate(genome, seed)
+    }
 }

@@ -3,6 +3,7 @@
 
 use super::budget::Budget;
 use super::records::{RunHeader, StrategyInfo, JOURNAL_FORMAT, SESSION_FIELDS, TOOL_VERSION};
+use super::scheduler::proposal_lag;
 use crate::{Error, Result};
 use serde_json::Value;
 
@@ -44,6 +45,7 @@ impl SearchPlan {
             },
             seed: self.seed,
             jobs: self.jobs,
+            lag: Some(proposal_lag(self.jobs)).filter(|&lag| lag != self.jobs as u64),
             budget: self.budget,
             space: self.space.clone(),
             data: self.data.clone(),

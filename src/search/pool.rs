@@ -27,6 +27,8 @@ struct Task<G> {
     index: u64,
     genome: G,
     seed: u64,
+    /// The strategy's bar for this candidate ([`Evaluator::evaluate_with_bar`]).
+    bar: Option<f64>,
 }
 
 /// A finished evaluation.
@@ -106,8 +108,9 @@ impl<G: Send + 'static> WorkerPool<G> {
         Ok(pool)
     }
 
-    /// Queues a candidate; workers start queued candidates in the order they were queued.
-    pub fn dispatch(&self, index: u64, genome: G, seed: u64) -> Result<()> {
+    /// Queues a candidate with the strategy's bar for it; workers start
+    /// queued candidates in the order they were queued.
+    pub fn dispatch(&self, index: u64, genome: G, seed: u64, bar: Option<f64>) -> Result<()> {
         let mut state = self.queue.lock();
         if state.closed {
             return Err(Error::internal("the evaluation workers are gone"));
@@ -116,6 +119,7 @@ impl<G: Send + 'static> WorkerPool<G> {
             index,
             genome,
             seed,
+            bar,
         });
         drop(state);
         self.queue.ready.notify_one();
@@ -171,7 +175,7 @@ fn work<G, E: Evaluator<G> + ?Sized>(
     while let Some(task) = queue.next() {
         let started = Instant::now();
         let outcome = catch_unwind(AssertUnwindSafe(|| {
-            evaluator.evaluate(&task.genome, task.seed)
+            evaluator.evaluate_with_bar(&task.genome, task.seed, task.bar)
         }));
         let evaluation = outcome.unwrap_or_else(|payload| failed(payload.as_ref()));
         let finished = Finished {
@@ -260,20 +264,20 @@ mod tests {
             gate: Mutex::new(gate),
         });
         let pool = WorkerPool::start(evaluator, 1).expect("pool");
-        pool.dispatch(0, 0, 0).expect("dispatch");
+        pool.dispatch(0, 0, 0, None).expect("dispatch");
         // The worker takes candidate 0 and blocks; wait until the queue is empty.
         let started = Instant::now();
         while !pool.queue.lock().tasks.is_empty() {
             assert!(started.elapsed() < Duration::from_secs(20));
             std::thread::yield_now();
         }
-        pool.dispatch(1, 1, 0).expect("dispatch");
-        pool.dispatch(2, 2, 0).expect("dispatch");
+        pool.dispatch(1, 1, 0, None).expect("dispatch");
+        pool.dispatch(2, 2, 0, None).expect("dispatch");
         assert_eq!(pool.cancel_queued(), vec![1, 2]);
         open.send(()).expect("release candidate 0");
         assert_eq!(wait_for(&pool, 0).evaluation.objective, Some(0.0));
         // Later candidates still run, in order, after a cancellation.
-        pool.dispatch(3, 3, 0).expect("dispatch");
+        pool.dispatch(3, 3, 0, None).expect("dispatch");
         assert_eq!(wait_for(&pool, 3).evaluation.objective, Some(3.0));
         let mut late = BTreeMap::new();
         pool.collect_ready(&mut late);
@@ -288,7 +292,7 @@ mod tests {
                 gate: Mutex::new(gate),
             });
             let pool = WorkerPool::<u32>::start(evaluator, 2).expect("pool");
-            pool.dispatch(5, 5, 0).expect("dispatch");
+            pool.dispatch(5, 5, 0, None).expect("dispatch");
             pool.queue.clone()
         };
         let state = queue.lock();

@@ -33,6 +33,12 @@ pub struct RunHeader {
     pub seed: u64,
     /// Worker threads; the journal depends on it (it fixes what each proposal has seen).
     pub jobs: usize,
+    /// The information lag: proposal k saw the results `0..=k - lag`. Written
+    /// only when it differs from `jobs` (this gemmule: 3 × jobs with two or
+    /// more jobs); a header without it means `lag = jobs`, the rule of the
+    /// first gemmule versions, which resumed runs keep. See [`RunHeader::lag`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lag: Option<u64>,
     /// The budget the run was created with. Later sessions may raise or lower
     /// it; their budgets are recorded in `timings.jsonl`, not here.
     pub budget: Budget,
@@ -42,6 +48,14 @@ pub struct RunHeader {
     pub data: serde_json::Value,
     /// The trainer's settings (filled by the caller).
     pub trainer: serde_json::Value,
+}
+
+impl RunHeader {
+    /// The information lag the run was made with (`lag`, or `jobs` when the
+    /// header has none); at least 1.
+    pub fn lag(&self) -> u64 {
+        self.lag.unwrap_or(self.jobs as u64).max(1)
+    }
 }
 
 /// Header fields that may differ between the sessions of one run.

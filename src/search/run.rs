@@ -91,6 +91,7 @@ where
     let header = plan.header(context.strategy.name(), context.strategy.settings());
     let journal = Journal::create_with(run_dir, &header, wrap)?;
     let files = SessionFiles {
+        lag: header.lag(),
         journal,
         timings: TimingLog::open(run_dir)?,
         replay: Vec::new(),
@@ -147,12 +148,22 @@ where
             contents.header.format
         )));
     }
-    let current = plan.header(context.strategy.name(), context.strategy.settings());
+    let mut current = plan.header(context.strategy.name(), context.strategy.settings());
+    // The lag is not a setting: a run keeps the rule it started with, also
+    // when a later gemmule resumes it.
+    current.lag = contents.header.lag;
+    if current.lag == Some(0) {
+        return Err(Error::input(format!(
+            "{}: the journal header has \"lag\": 0; it must be at least 1 (was the file edited?)",
+            path.display()
+        )));
+    }
     check_same_run(&contents.header, &current)
         .map_err(|e| Error::input(format!("{}: {e}", path.display())))?;
     let mut warnings: Vec<String> = warning.into_iter().collect();
     warnings.extend(contents.warnings);
     let files = SessionFiles {
+        lag: contents.header.lag(),
         journal: Journal::reopen_with(run_dir, contents.intact_len, wrap)?,
         timings: TimingLog::open(run_dir)?,
         replay: contents.evaluations,

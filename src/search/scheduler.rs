@@ -90,6 +90,8 @@ pub(crate) struct SessionFiles<G> {
     pub replay: Vec<EvaluationRecord<G>>,
     /// The gemmule version that wrote the journal.
     pub written_by: String,
+    /// The run's information lag ([`RunHeader::lag`](super::RunHeader::lag)).
+    pub lag: u64,
 }
 
 impl<'a, 'c, S, E> Driver<'a, 'c, S, E>
@@ -130,7 +132,7 @@ where
             next_commit: 0,
             best: None,
             deadline,
-            lag: proposal_lag(plan.jobs),
+            lag: files.lag.max(1),
         })
     }
 
@@ -239,6 +241,7 @@ where
         let index = self.next_proposal;
         let mut rng = proposal_rng(self.plan.seed, index);
         let proposal = self.context.strategy.propose(index, &mut rng);
+        let bar = self.context.strategy.cut_bar();
         let seed = evaluation_seed(self.plan.seed, index);
         let name = self.context.strategy.name();
         if proposal.parent.is_some_and(|parent| parent >= index) {
@@ -254,7 +257,9 @@ where
         let id = self.context.space.genome_id(&proposal.genome);
         match self.replay.get(index as usize) {
             Some(record) => check_replay(record, &proposal, seed, &self.written_by)?,
-            None => self.pool.dispatch(index, proposal.genome.clone(), seed)?,
+            None => self
+                .pool
+                .dispatch(index, proposal.genome.clone(), seed, bar)?,
         }
         self.ids.push(id.clone());
         self.in_flight

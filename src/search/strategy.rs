@@ -20,9 +20,12 @@ pub struct Proposal<G> {
 ///
 /// The scheduler calls `propose` for indices 0, 1, 2, … in order, and
 /// `observe` for every committed result in index order. Before proposing index
-/// k the strategy has observed exactly the results `0..=k - jobs` (none when
-/// `k < jobs`). A strategy must be deterministic given those calls and the
-/// generator it is handed, or a resumed run will be refused.
+/// k the strategy has observed exactly the results `0..=k - lag` (none when
+/// `k < lag`), where the lag is 1 for a run with one job and 3 × jobs for
+/// more (recorded in the journal header as `lag` when it differs from
+/// `jobs`). Right after `propose` it calls `cut_bar`. A strategy must be
+/// deterministic given those calls and the generator it is handed, or a
+/// resumed run will be refused.
 pub trait Strategy<G>: Send {
     /// A short stable name, recorded in the journal header (e.g. `"aging_evolution"`).
     fn name(&self) -> &'static str;
@@ -36,6 +39,15 @@ pub trait Strategy<G>: Send {
 
     /// Learns the result of the candidate with journal index `index`.
     fn observe(&mut self, index: u64, genome: &G, evaluation: &Evaluation);
+
+    /// The objective the candidate just proposed must be able to beat to
+    /// matter to this strategy, given what it has observed so far; the
+    /// evaluator may cut a candidate that cannot reach it (see
+    /// [`Evaluator::evaluate_with_bar`](super::Evaluator::evaluate_with_bar)).
+    /// `None` (the default) means every candidate trains in full.
+    fn cut_bar(&self) -> Option<f64> {
+        None
+    }
 }
 
 /// Orders objectives, higher is better, with `None` below every score.

@@ -1,6 +1,7 @@
 //! The epoch loop, written once for every [`Learner`].
 
 use super::batches::Batches;
+use super::curve_cut::{CurveCut, CurveWatch, CutVerdict};
 use super::evaluate::{mean_cross_entropy, softmax_rows};
 use super::input_checks::check_inputs;
 use super::learner::{Learner, Snapshot};
@@ -29,6 +30,8 @@ pub struct FitOutcome {
     pub best_epoch: u32,
     /// Mean training-batch loss of each completed epoch, in order.
     pub epoch_losses: Vec<f64>,
+    /// Why training was cut, when `status` is [`TrainStatus::CurveCut`].
+    pub cut: Option<CutVerdict>,
 }
 
 /// The best epoch so far by validation loss, with its weights.
@@ -59,6 +62,23 @@ pub fn fit(
     settings: &TrainSettings,
     batch_size: usize,
 ) -> Result<FitOutcome> {
+    fit_with_cut(learner, train, valid, settings, batch_size, None)
+}
+
+/// [`fit`] with a learning-curve cut: with validation data and `cut` given,
+/// the current weights are also scored after every epoch and training stops
+/// with [`TrainStatus::CurveCut`] once the curve cannot reach `cut.bar`
+/// ([`CurveWatch`]). The learner then holds the best epoch's weights and the
+/// outcome their scores, as after early stopping. Without `cut` this is
+/// exactly [`fit`]: the extra scoring only happens when a cut is asked for.
+pub fn fit_with_cut(
+    learner: &mut dyn Learner,
+    train: &Dataset,
+    valid: Option<&Dataset>,
+    settings: &TrainSettings,
+    batch_size: usize,
+    cut: Option<CurveCut>,
+) -> Result<FitOutcome> {
     check_inputs(
         train,
         valid,
@@ -72,6 +92,10 @@ pub fn fit(
     let mut best: Option<BestEpoch> = None;
     let mut epochs_without_improvement = 0;
     let mut epoch_losses = Vec::new();
+    let mut watch = cut.map(|cut| CurveWatch::new(cut, settings.max_epochs));
+    let mut verdict = None;
+    let mut logits = Vec::new();
+    let mut probabilities = Vec::new();
     for epoch in 1..=settings.max_epochs {
         epochs_run = epoch;
         batches.shuffle(settings.seed, epoch);
@@ -93,11 +117,21 @@ pub fn fit(
         }
         epoch_losses.push(loss_sum / train.len() as f64);
         let Some(valid) = valid else { continue };
-        let loss = validation_loss(learner, valid)?;
+        logits_in_chunks(learner, valid, &mut logits)?;
+        let loss = mean_cross_entropy(&logits, &valid.y, valid.n_classes);
         if !loss.is_finite() {
             status = TrainStatus::Diverged;
             break;
         }
+        let cut_now = match watch.as_mut() {
+            Some(watch) => {
+                probabilities.clear();
+                probabilities.extend_from_slice(&logits);
+                softmax_rows(&mut probabilities, valid.n_classes);
+                watch.after_epoch(&score(&probabilities, &valid.y, valid.n_classes))
+            }
+            None => None,
+        };
         if best.as_ref().is_none_or(|b| loss < b.loss) {
             let weights = learner.snapshot()?;
             best = Some(BestEpoch {
@@ -113,6 +147,11 @@ pub fn fit(
                 break;
             }
         }
+        if cut_now.is_some() {
+            status = TrainStatus::CurveCut;
+            verdict = cut_now;
+            break;
+        }
     }
 
     let best_epoch = match (best, valid) {
@@ -124,8 +163,11 @@ pub fn fit(
         (None, None) => epochs_run,
     };
     let scores = match (valid, status) {
-        (Some(valid), TrainStatus::Completed | TrainStatus::EarlyStopped) => {
-            let mut probabilities = logits_in_chunks(learner, valid)?;
+        (
+            Some(valid),
+            TrainStatus::Completed | TrainStatus::EarlyStopped | TrainStatus::CurveCut,
+        ) => {
+            logits_in_chunks(learner, valid, &mut probabilities)?;
             softmax_rows(&mut probabilities, valid.n_classes);
             Some(score(&probabilities, &valid.y, valid.n_classes))
         }
@@ -137,19 +179,22 @@ pub fn fit(
         epochs_run,
         best_epoch,
         epoch_losses,
+        cut: verdict,
     })
 }
 
-fn validation_loss(learner: &mut dyn Learner, valid: &Dataset) -> Result<f64> {
-    let logits = logits_in_chunks(learner, valid)?;
-    Ok(mean_cross_entropy(&logits, &valid.y, valid.n_classes))
-}
-
-fn logits_in_chunks(learner: &mut dyn Learner, data: &Dataset) -> Result<Vec<f32>> {
-    let mut logits = Vec::with_capacity(data.len() * data.n_classes);
+/// The logits of every row of `data`, written into `logits` (cleared
+/// first; its allocation is reused from epoch to epoch).
+fn logits_in_chunks(
+    learner: &mut dyn Learner,
+    data: &Dataset,
+    logits: &mut Vec<f32>,
+) -> Result<()> {
+    logits.clear();
+    logits.reserve(data.len() * data.n_classes);
     for chunk in data.x.chunks(EVAL_CHUNK_ROWS * data.n_features) {
         let rows = chunk.len() / data.n_features;
         logits.extend(learner.logits(chunk, rows)?);
     }
-    Ok(logits)
+    Ok(())
 }

@@ -22,6 +22,7 @@
 mod adam;
 mod autograd_learner;
 mod batches;
+mod curve_cut;
 mod evaluate;
 mod fast_mlp;
 mod fit;
@@ -40,9 +41,10 @@ mod trainer;
 
 pub use adam::{adam_step, AdamSettings};
 pub use autograd_learner::{AutogradLearner, AutogradNetwork};
+pub use curve_cut::{first_cut_epoch, CurveCut, CurveWatch, CutVerdict, SLOPE_WINDOW};
 pub(crate) use evaluate::softmax_rows;
 pub use fast_mlp::{matmul_row_major, FastMlpLearner, PhaseTimes};
-pub use fit::{fit, FitOutcome};
+pub use fit::{fit, fit_with_cut, FitOutcome};
 pub use gradients::{compute_gradients, Gradients};
 pub use learner::{Learner, Snapshot};
 pub use model::TrainedModel;
@@ -52,4 +54,4 @@ pub(crate) use scores::argmax_lowest_on_ties;
 pub use scores::{score, Scores};
 pub use settings::{TrainOutcome, TrainSettings, TrainStatus};
 pub use sgd::{sgd_momentum_step, SGD_MOMENTUM};
-pub use trainer::{train, train_with_engine, TrainEngine};
+pub use trainer::{train, train_with_cut, train_with_engine, TrainEngine};

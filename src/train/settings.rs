@@ -2,6 +2,7 @@
 
 use serde::{Deserialize, Serialize};
 
+use super::curve_cut::CutVerdict;
 use super::model::TrainedModel;
 use super::scores::Scores;
 
@@ -26,6 +27,9 @@ pub enum TrainStatus {
     EarlyStopped,
     /// The training loss, the validation loss or a weight became NaN or infinite.
     Diverged,
+    /// Stopped by a learning-curve cut: the validation curve could not reach
+    /// the bar by the last epoch (see [`CurveWatch`](super::CurveWatch)).
+    CurveCut,
 }
 
 /// The result of [`train`](super::train).
@@ -45,4 +49,6 @@ pub struct TrainOutcome {
     pub seconds: f64,
     /// The trained network (best weights by validation loss when validation data was given).
     pub model: TrainedModel,
+    /// Why training was cut, when `status` is [`TrainStatus::CurveCut`].
+    pub cut: Option<CutVerdict>,
 }

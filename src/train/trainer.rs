@@ -3,8 +3,9 @@
 use std::time::Instant;
 
 use super::autograd_learner::AutogradLearner;
+use super::curve_cut::CurveCut;
 use super::fast_mlp::FastMlpLearner;
-use super::fit::fit;
+use super::fit::fit_with_cut;
 use super::input_checks::check_inputs;
 use super::model::TrainedModel;
 use super::settings::{TrainOutcome, TrainSettings};
@@ -63,6 +64,20 @@ pub fn train_with_engine(
     settings: &TrainSettings,
     engine: TrainEngine,
 ) -> Result<TrainOutcome> {
+    train_with_cut(genome, train, valid, settings, engine, None)
+}
+
+/// [`train_with_engine`] with an optional learning-curve cut (see
+/// [`fit_with_cut`](super::fit_with_cut)); `None` trains exactly as
+/// [`train_with_engine`] does.
+pub fn train_with_cut(
+    genome: &LayerGenome,
+    train: &Dataset,
+    valid: Option<&Dataset>,
+    settings: &TrainSettings,
+    engine: TrainEngine,
+    cut: Option<CurveCut>,
+) -> Result<TrainOutcome> {
     let started = Instant::now();
     check_inputs(train, valid, settings, train.n_features, train.n_classes)?;
     let (n_inputs, n_classes) = (train.n_features, train.n_classes);
@@ -70,13 +85,13 @@ pub fn train_with_engine(
     let (fitted, network) = match engine {
         TrainEngine::Fast => {
             let mut learner = FastMlpLearner::build(genome, n_inputs, n_classes, settings.seed)?;
-            let fitted = fit(&mut learner, train, valid, settings, batch_size)?;
+            let fitted = fit_with_cut(&mut learner, train, valid, settings, batch_size, cut)?;
             (fitted, learner.to_mlp()?)
         }
         TrainEngine::Autograd => {
             let mlp = Mlp::build(genome, n_inputs, n_classes, settings.seed)?;
             let mut learner = AutogradLearner::new(mlp, &genome.training)?;
-            let fitted = fit(&mut learner, train, valid, settings, batch_size)?;
+            let fitted = fit_with_cut(&mut learner, train, valid, settings, batch_size, cut)?;
             (fitted, learner.network().frozen_copy()?)
         }
     };
@@ -87,5 +102,6 @@ pub fn train_with_engine(
         best_epoch: fitted.best_epoch,
         seconds: started.elapsed().as_secs_f64(),
         model: TrainedModel::from_frozen(genome.clone(), network),
+        cut: fitted.cut,
     })
 }

@@ -1,23 +1,29 @@
 //! Reading the images a saved image model is asked to predict.
 
 use super::data_source::{read_images_at, DataFormat};
-use crate::data::image::{ImageShape, ImageTable, IMAGE_EXTENSIONS};
+use crate::data::image::{to_channels, ImagePreprocessor, ImageTable, IMAGE_EXTENSIONS};
 use crate::data::CsvOptions;
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
 
-/// Reads images for prediction with a model trained on images of `shape`:
-/// `idx_labels` makes `path` an IDX images file; a folder holding class
-/// sub-folders is read as a labelled image folder (converted to the model's
-/// channel count); a folder holding image files directly gives unlabelled
-/// images (sorted by file name); any other file is a CSV of pixel columns
-/// plus a label column.
+/// Reads images for prediction with a model whose image preprocessing is
+/// `pre`: `idx_labels` makes `path` an IDX images file; a folder holding
+/// class sub-folders is read as a labelled image folder (converted to the
+/// model's channel count); a folder holding image files directly gives
+/// unlabelled images (sorted by file name); any other file is a CSV of pixel
+/// columns plus a label column.
+///
+/// When the training images were resized (`pre.resize`), images read from
+/// a folder (either layout) that have another size are resized to it with
+/// the function the training folder went through, so they reach the network
+/// as the training images did. IDX files and pixel CSV are not resized.
 pub fn read_prediction_images(
     path: &Path,
-    shape: ImageShape,
+    pre: &ImagePreprocessor,
     idx_labels: Option<&Path>,
     csv: &CsvOptions,
 ) -> Result<ImageTable> {
+    let shape = pre.shape;
     let channels = u8::try_from(shape.channels).ok();
     let format = match idx_labels {
         Some(labels) => DataFormat::Idx {
@@ -27,10 +33,10 @@ pub fn read_prediction_images(
             if image_files(path)?.is_empty() {
                 DataFormat::ImageFolder {
                     channels,
-                    resize: None,
+                    resize: pre.resize,
                 }
             } else {
-                return read_flat_folder(path, shape);
+                return read_flat_folder(path, pre);
             }
         }
         None => DataFormat::PixelCsv { shape },
@@ -55,16 +61,24 @@ fn image_files(dir: &Path) -> Result<Vec<PathBuf>> {
     Ok(files)
 }
 
-/// Unlabelled images directly inside `dir`, each of exactly `shape`.
-fn read_flat_folder(dir: &Path, shape: ImageShape) -> Result<ImageTable> {
+/// Unlabelled images directly inside `dir`, each of the model's shape
+/// (after resizing, when the training images were resized).
+fn read_flat_folder(dir: &Path, pre: &ImagePreprocessor) -> Result<ImageTable> {
+    let shape = pre.shape;
     let files = image_files(dir)?;
     let mut pixels = Vec::with_capacity(files.len() * shape.n_values());
     let mut sources = Vec::with_capacity(files.len());
     for file in &files {
         let image = ::image::open(file)
             .map_err(|e| Error::input(format!("{}: cannot read the image: {e}", file.display())))?;
-        let (h, w) = (image.height() as usize, image.width() as usize);
-        if (h, w) != (shape.height, shape.width) {
+        if !matches!(shape.channels, 1 | 3) {
+            return Err(Error::input(format!(
+                "the model reads images with {} channels; only 1 or 3 can be read from image files",
+                shape.channels
+            )));
+        }
+        let (hwc, h, w) = to_channels(image, shape.channels, pre.resize);
+        if (h as usize, w as usize) != (shape.height, shape.width) {
             return Err(Error::input(format!(
                 "{}: the image is {h}x{w} (HxW) but the model reads {}x{}; resize it first",
                 file.display(),
@@ -72,15 +86,6 @@ fn read_flat_folder(dir: &Path, shape: ImageShape) -> Result<ImageTable> {
                 shape.width
             )));
         }
-        let hwc: Vec<u8> = match shape.channels {
-            1 => image.to_luma8().into_raw(),
-            3 => image.to_rgb8().into_raw(),
-            other => {
-                return Err(Error::input(format!(
-                    "the model reads images with {other} channels; only 1 or 3 can be read from image files"
-                )))
-            }
-        };
         let hwc: Vec<f32> = hwc.into_iter().map(f32::from).collect();
         let mut chw = vec![0.0f32; shape.n_values()];
         shape.hwc_to_chw(&hwc, &mut chw);
@@ -100,5 +105,6 @@ fn read_flat_folder(dir: &Path, shape: ImageShape) -> Result<ImageTable> {
         path: dir.to_path_buf(),
         label_source: "none (unlabelled images)".into(),
         warnings: Vec::new(),
+        resized_to: pre.resize,
     })
 }

@@ -82,6 +82,8 @@ pub struct MatchEvaluator {
     pub max_sleep_ms: u64,
     /// Panic for genomes starting with this symbol.
     pub panic_on_first: Option<u8>,
+    /// Journal the strategy's bar as the score `"bar"` (when there is one).
+    pub record_bar: bool,
 }
 
 impl MatchEvaluator {
@@ -91,6 +93,7 @@ impl MatchEvaluator {
             target,
             max_sleep_ms: 0,
             panic_on_first: None,
+            record_bar: false,
         }
     }
 }
@@ -118,5 +121,13 @@ impl Evaluator<Vec<u8>> for MatchEvaluator {
             best_epoch: 1,
             message: None,
         }
+    }
+
+    fn evaluate_with_bar(&self, genome: &Vec<u8>, seed: u64, bar: Option<f64>) -> Evaluation {
+        let mut evaluation = self.evaluate(genome, seed);
+        if let (true, Some(bar)) = (self.record_bar, bar) {
+            evaluation.scores.insert("bar".to_string(), bar);
+        }
+        evaluation
     }
 }

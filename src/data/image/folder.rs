@@ -68,6 +68,7 @@ pub fn read_image_folder(root: &Path, options: &ImageFolderOptions) -> Result<Im
         path: root.to_path_buf(),
         label_source: "class folder names".to_string(),
         warnings: ignored_warning(&listing.ignored).into_iter().collect(),
+        resized_to: options.resize,
     };
     let mut first: Option<(String, ImageShape)> = None;
     for file in &listing.files {
@@ -124,9 +125,12 @@ fn channels_without_alpha(image: &DynamicImage) -> usize {
     usize::from(color.channel_count()) - usize::from(color.has_alpha())
 }
 
-/// The image as 8-bit HWC values with `channels` channels, resized if asked;
-/// returns the values, height and width.
-fn to_channels(
+/// The image as 8-bit HWC values with `channels` (1, else 3) channels,
+/// resized with bilinear interpolation ([`FilterType::Triangle`]) when
+/// `resize` asks for another size; returns the values, height and width.
+/// Training folders and the images `predict` reads go through this one
+/// function, so both are resampled alike.
+pub(crate) fn to_channels(
     image: DynamicImage,
     channels: usize,
     resize: Option<(u32, u32)>,

@@ -57,6 +57,7 @@ pub fn read_idx(images_path: &Path, labels_path: &Path) -> Result<ImageTable> {
         path: images_path.to_path_buf(),
         label_source: format!("IDX labels file {}", labels_path.display()),
         warnings: Vec::new(),
+        resized_to: None,
     })
 }
 

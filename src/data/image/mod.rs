@@ -22,6 +22,7 @@ mod shape;
 mod table;
 
 pub use augment::{augment_batch, flip_horizontal, shift_image};
+pub(crate) use folder::to_channels;
 pub use folder::{read_image_folder, ImageFolderOptions};
 pub use folder_scan::IMAGE_EXTENSIONS;
 pub use folder_write::write_image_folder;

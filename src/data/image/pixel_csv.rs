@@ -72,5 +72,6 @@ pub fn read_pixel_csv(path: &Path, shape: ImageShape, options: &CsvOptions) -> R
         path: path.to_path_buf(),
         label_source: format!("CSV column '{}'", table.label_name()),
         warnings: Vec::new(),
+        resized_to: None,
     })
 }

@@ -22,6 +22,12 @@ pub struct ImagePreprocessor {
     pub class_names: Vec<String>,
     /// Where the training labels came from (e.g. "class folder names").
     pub label_source: String,
+    /// `(height, width)` the training images were resized to (`--resize` on
+    /// an image folder); prediction resizes images of another size read
+    /// from folders the same way. Absent in `model.json` when the training
+    /// images were not resized (and in models saved before this field).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub resize: Option<(u32, u32)>,
 }
 
 impl ImagePreprocessor {
@@ -74,8 +80,23 @@ impl ImagePreprocessor {
             channel_std,
             class_names,
             label_source: table.label_source.clone(),
+            resize: table.resized_to,
         };
         Ok((preprocessor, warnings))
+    }
+
+    /// Checks that a recorded resize target is the image shape's height and
+    /// width (a hand-edited `model.json` could make them disagree).
+    pub fn check_resize(&self) -> Result<()> {
+        match self.resize {
+            Some((h, w)) if (h as usize, w as usize) != (self.shape.height, self.shape.width) => {
+                Err(Error::input(format!(
+                    "the image preprocessor resizes to {h}x{w} (HxW) but its image shape is {}",
+                    self.shape
+                )))
+            }
+            _ => Ok(()),
+        }
     }
 
     /// Values per encoded image: `height · width · channels`.
@@ -129,9 +150,14 @@ impl ImagePreprocessor {
     pub fn encode(&self, table: &ImageTable) -> Result<(Vec<f32>, Option<Vec<u32>>)> {
         table.check_sizes()?;
         if table.shape != self.shape {
+            let folders_only = if self.resize.is_some() {
+                " (prediction resizes images read from folders, not IDX files or pixel CSV)"
+            } else {
+                ""
+            };
             return Err(Error::input(format!(
                 "{}: the images are {} (HxWxC) but the model was trained on {}; convert or \
-                 resize the images to {}",
+                 resize the images to {}{folders_only}",
                 table.path.display(),
                 table.shape,
                 self.shape,

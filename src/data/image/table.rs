@@ -31,6 +31,11 @@ pub struct ImageTable {
     pub label_source: String,
     /// Things the user should know about the load (e.g. ignored files).
     pub warnings: Vec<String>,
+    /// `(height, width)` the loader resized images of another size to
+    /// (image folders read with a resize target); `None` when no resizing
+    /// was asked for. Kept in the fitted [`super::ImagePreprocessor`], so
+    /// prediction resizes new images the same way.
+    pub resized_to: Option<(u32, u32)>,
 }
 
 impl ImageTable {

@@ -16,3 +16,4 @@ mod weights_file;
 pub use image_net::ImageCellNet;
 pub use table_net::TableCellNet;
 pub use training::{train_image_cells, train_table_cells, CellTrainOutcome};
+pub(crate) use training::{train_image_cells_with_cut, train_table_cells_with_cut};

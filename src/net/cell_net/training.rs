@@ -1,4 +1,4 @@
-//! Training cell networks with the shared epoch loop ([`fit`]).
+//! Training cell networks with the shared epoch loop ([`fit`](crate::train::fit)).
 
 use std::time::Instant;
 
@@ -11,7 +11,8 @@ use crate::data::image::ImageShape;
 use crate::data::Dataset;
 use crate::genome::{ImageCellGenome, TableCellGenome};
 use crate::train::{
-    fit, AutogradLearner, FitOutcome, Learner, Scores, Snapshot, TrainSettings, TrainStatus,
+    fit_with_cut, AutogradLearner, CurveCut, CutVerdict, FitOutcome, Learner, Scores, Snapshot,
+    TrainSettings, TrainStatus,
 };
 use crate::Result;
 
@@ -32,6 +33,8 @@ pub struct CellTrainOutcome<N> {
     /// The trained network (best weights and their running statistics by
     /// validation loss when validation data was given).
     pub network: N,
+    /// Why training was cut, when `status` is [`TrainStatus::CurveCut`].
+    pub cut: Option<CutVerdict>,
 }
 
 /// An [`AutogradLearner`] whose snapshots also hold batch-norm running
@@ -105,12 +108,13 @@ fn outcome<N>(fitted: FitOutcome, started: Instant, network: N) -> CellTrainOutc
         best_epoch: fitted.best_epoch,
         seconds: started.elapsed().as_secs_f64(),
         network,
+        cut: fitted.cut,
     }
 }
 
 /// Builds the network `genome` describes for images of `shape` (weights
 /// from `settings.seed`) and trains it with the genome's optimiser, batch
-/// size and the shared epoch loop ([`fit`]: seeded shuffles, validation
+/// size and the shared epoch loop ([`fit`](crate::train::fit): seeded shuffles, validation
 /// loss, early stopping, best-epoch restore, divergence). With `augment`,
 /// each training batch is shifted by up to 1 pixel (no flips), drawn from
 /// the epoch's seeded stream. Single-threaded runs are bit-identical.
@@ -122,6 +126,20 @@ pub fn train_image_cells(
     settings: &TrainSettings,
     augment: bool,
 ) -> Result<CellTrainOutcome<ImageCellNet>> {
+    train_image_cells_with_cut(genome, train, valid, shape, settings, augment, None)
+}
+
+/// [`train_image_cells`] with an optional learning-curve cut
+/// ([`fit_with_cut`]); `None` trains exactly as [`train_image_cells`].
+pub(crate) fn train_image_cells_with_cut(
+    genome: &ImageCellGenome,
+    train: &Dataset,
+    valid: Option<&Dataset>,
+    shape: ImageShape,
+    settings: &TrainSettings,
+    augment: bool,
+    cut: Option<CurveCut>,
+) -> Result<CellTrainOutcome<ImageCellNet>> {
     let started = Instant::now();
     let mut network = ImageCellNet::build(genome, shape, train.n_classes, settings.seed)?;
     network.set_augment(augment);
@@ -129,7 +147,7 @@ pub fn train_image_cells(
     let inner = AutogradLearner::new(network.clone(), &genome.training)?;
     let mut learner = NormTrackingLearner { inner, norms };
     let batch_size = genome.training.batch_size as usize;
-    let fitted = fit(&mut learner, train, valid, settings, batch_size)?;
+    let fitted = fit_with_cut(&mut learner, train, valid, settings, batch_size, cut)?;
     network.set_augment(false);
     Ok(outcome(fitted, started, network))
 }
@@ -142,10 +160,22 @@ pub fn train_table_cells(
     valid: Option<&Dataset>,
     settings: &TrainSettings,
 ) -> Result<CellTrainOutcome<TableCellNet>> {
+    train_table_cells_with_cut(genome, train, valid, settings, None)
+}
+
+/// [`train_table_cells`] with an optional learning-curve cut
+/// ([`fit_with_cut`]); `None` trains exactly as [`train_table_cells`].
+pub(crate) fn train_table_cells_with_cut(
+    genome: &TableCellGenome,
+    train: &Dataset,
+    valid: Option<&Dataset>,
+    settings: &TrainSettings,
+    cut: Option<CurveCut>,
+) -> Result<CellTrainOutcome<TableCellNet>> {
     let started = Instant::now();
     let network = TableCellNet::build(genome, train.n_features, train.n_classes, settings.seed)?;
     let mut learner = AutogradLearner::new(network.clone(), &genome.training)?;
     let batch_size = genome.training.batch_size as usize;
-    let fitted = fit(&mut learner, train, valid, settings, batch_size)?;
+    let fitted = fit_with_cut(&mut learner, train, valid, settings, batch_size, cut)?;
     Ok(outcome(fitted, started, network))
 }
