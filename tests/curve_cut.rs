@@ -298,3 +298,60 @@ fn random_search_with_the_cut_is_refused() {
     );
     assert!(!run.exists());
 }
+
+#[test]
+fn the_evaluator_cuts_only_when_asked_and_reports_in_objective_terms() {
+    use gemmule::evaluate::{penalised_objective, TrainerSettings, TrainingEvaluator};
+    use gemmule::net::layer_cost;
+    use gemmule::search::Evaluator;
+
+    let (train, valid) = (data(300, false, 7), data(90, false, 8));
+    let lambda = 0.05;
+    let trainer = TrainerSettings {
+        max_epochs: 20,
+        patience: 0,
+        size_penalty: Some(lambda),
+        curve_cut: true,
+        ..TrainerSettings::default()
+    };
+    let params = layer_cost(&genome(), FEATURES, CLASSES).params;
+    let penalty = -penalised_objective(0.0, params, lambda);
+    assert!(penalty > 0.1, "a penalty worth checking: {penalty}");
+    // The bar is on the penalised scale: 0.9 − penalty is out of reach for
+    // labels that do not depend on the features (accuracy ~1/3).
+    let bar = 0.9 - penalty;
+    let evaluator = TrainingEvaluator::new(train.clone(), valid.clone(), trainer.clone());
+    let cut = evaluator.evaluate_with_bar(&genome(), 3, Some(bar));
+    assert_eq!(cut.status, EvalStatus::CurveCut);
+    assert_eq!(cut.epochs, first_cut_epoch(20));
+    let accuracy = cut.scores["accuracy"];
+    let objective = cut.objective.expect("scored");
+    assert!((objective - (accuracy - penalty)).abs() < 1e-12, "objective is penalised");
+    let message = cut.message.as_deref().unwrap_or("");
+    assert!(
+        message.starts_with("learning-curve cut after epoch 5 of 20: best accuracy so far ")
+            && message.ends_with(&format!("below the population's worst {bar:.4}")),
+        "{message}"
+    );
+    let best_shown: f64 = message
+        .split("best accuracy so far ")
+        .nth(1)
+        .and_then(|rest| rest.split(',').next())
+        .and_then(|number| number.parse().ok())
+        .expect("a number after 'best accuracy so far'");
+    assert!(best_shown < 0.6 - penalty, "shown on the penalised scale: {message}");
+
+    // No bar, or the cut off: the candidate trains all 20 epochs.
+    assert_eq!(evaluator.evaluate_with_bar(&genome(), 3, None).epochs, 20);
+    let off = TrainingEvaluator::new(
+        train,
+        valid,
+        TrainerSettings {
+            curve_cut: false,
+            ..trainer
+        },
+    );
+    let full = off.evaluate_with_bar(&genome(), 3, Some(bar));
+    assert_eq!(full.status, EvalStatus::Completed);
+    assert_eq!(full, evaluator.evaluate(&genome(), 3), "evaluate() passes no bar");
+}
