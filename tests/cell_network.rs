@@ -388,3 +388,58 @@ fn wine_table_cells_reach_ninety_percent() {
         scores.accuracy
     );
 }
+
+// ------------------------------------------------------------ one-row batches
+
+#[test]
+fn a_last_batch_of_one_row_on_one_pixel_maps_is_skipped_not_fatal() {
+    // Batch norm in training mode needs more than one value per channel
+    // (PyTorch refuses the same; common practice, no source). With three
+    // reductions an 8×8 image ends at 1×1 maps, so a last mini-batch of one
+    // row would give one value per channel: 129 rows in batches of 32.
+    single_thread();
+    let (train, valid, shape) = small_digits();
+    let rows: Vec<usize> = (0..129).collect();
+    let mut genome = reference_image_genome();
+    genome.skeleton = skeleton(4, 1, 4);
+    genome.training = training(0.01, 32);
+    let settings = TrainSettings {
+        max_epochs: 2,
+        patience: 0,
+        seed: 5,
+    };
+    let outcome = train_image_cells(
+        &genome,
+        &train.subset(&rows),
+        Some(&valid),
+        shape,
+        &settings,
+        false,
+    )
+    .expect("trains although the last batch has one row");
+    assert_eq!(outcome.status, TrainStatus::Completed);
+    assert_eq!(outcome.epochs_run, 2);
+    // A batch size of 1 cannot train such a network at all: an input error.
+    genome.training = training(0.01, 1);
+    match train_image_cells(&genome, &train.subset(&rows), None, shape, &settings, false) {
+        Err(gemmule::Error::Input(message)) => assert!(
+            message.contains("at least 2 rows per training batch")
+                && message.contains("batch size is 1"),
+            "{message}"
+        ),
+        other => panic!("expected an input error, got {:?}", other.map(|o| o.status)),
+    }
+    // Maps of 2×2 and more keep training on every row, the one-row batch included.
+    let mut wide = reference_image_genome();
+    wide.training = training(0.01, 32);
+    let outcome = train_image_cells(
+        &wide,
+        &train.subset(&rows),
+        Some(&valid),
+        shape,
+        &settings,
+        false,
+    )
+    .expect("trains");
+    assert_eq!(outcome.status, TrainStatus::Completed);
+}

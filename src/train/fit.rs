@@ -86,6 +86,14 @@ pub fn fit_with_cut(
         learner.n_inputs(),
         learner.n_classes(),
     )?;
+    let min_rows = learner.min_batch_rows().max(1);
+    if train.len() < min_rows || batch_size < min_rows {
+        return Err(crate::Error::input(format!(
+            "this network needs at least {min_rows} rows per training batch (batch norm on \
+             1×1 maps), but the batch size is {batch_size} and the training split has {} rows",
+            train.len()
+        )));
+    }
     let mut batches = Batches::new(train);
     let mut status = TrainStatus::Completed;
     let mut epochs_run = 0;
@@ -101,9 +109,14 @@ pub fn fit_with_cut(
         batches.shuffle(settings.seed, epoch);
         let mut dropout_rng = seeded_rng(settings.seed, dropout_stream(epoch));
         let mut loss_sum = 0.0f64;
+        let mut rows_trained = 0usize;
         let mut losses_finite = true;
         for index in 0..batches.count(batch_size) {
             let (x, y) = batches.batch(index, batch_size);
+            if y.len() < min_rows {
+                continue;
+            }
+            rows_trained += y.len();
             let loss = learner.train_step(x, y, y.len(), &mut dropout_rng)?;
             if !loss.is_finite() {
                 losses_finite = false;
@@ -115,7 +128,7 @@ pub fn fit_with_cut(
             status = TrainStatus::Diverged;
             break;
         }
-        epoch_losses.push(loss_sum / train.len() as f64);
+        epoch_losses.push(loss_sum / rows_trained as f64);
         let Some(valid) = valid else { continue };
         logits_in_chunks(learner, valid, &mut logits)?;
         let loss = mean_cross_entropy(&logits, &valid.y, valid.n_classes);

@@ -45,6 +45,14 @@ pub trait Learner {
 
     /// True when every parameter value is finite.
     fn all_finite(&self) -> Result<bool>;
+
+    /// The fewest rows a training mini-batch may have (default 1). The epoch
+    /// loop skips a smaller last batch; its rows land in other batches in
+    /// other epochs' orders. Networks with batch norm on 1×1 maps need 2,
+    /// since batch statistics of one value per channel are undefined.
+    fn min_batch_rows(&self) -> usize {
+        1
+    }
 }
 
 /// Parameter values of a network at one moment: one row-major vector per

@@ -32,6 +32,8 @@ pub struct ImageCellNet {
     shape: ImageShape,
     n_classes: usize,
     augment: bool,
+    /// Pixels of the smallest feature map a batch norm sees (stem or any cell output).
+    smallest_map: u64,
     pub(super) params: ParamSet,
 }
 
@@ -83,6 +85,10 @@ impl ImageCellNet {
             n_classes,
         )?;
         let head_bias = params.bias("head.bias".to_string(), n_classes)?;
+        let smallest_map = stages
+            .iter()
+            .map(|stage| stage.output.height.saturating_mul(stage.output.width))
+            .fold((shape.height * shape.width) as u64, u64::min);
         Ok(ImageCellNet {
             stem,
             cells,
@@ -91,8 +97,19 @@ impl ImageCellNet {
             shape,
             n_classes,
             augment: false,
+            smallest_map,
             params: params.finish(),
         })
+    }
+
+    /// The fewest rows a training batch needs: 2 when some batch norm sees
+    /// 1×1 maps (one value per channel and row), else 1.
+    pub fn min_batch_rows(&self) -> usize {
+        if self.smallest_map <= 1 {
+            2
+        } else {
+            1
+        }
     }
 
     /// Turns seeded training augmentation on or off: in training mode each

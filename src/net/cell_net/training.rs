@@ -43,6 +43,8 @@ pub struct CellTrainOutcome<N> {
 struct NormTrackingLearner<N: crate::train::AutogradNetwork> {
     inner: AutogradLearner<N>,
     norms: Vec<Norm>,
+    /// See [`ImageCellNet::min_batch_rows`].
+    min_rows: usize,
 }
 
 impl<N: crate::train::AutogradNetwork> Learner for NormTrackingLearner<N> {
@@ -66,6 +68,10 @@ impl<N: crate::train::AutogradNetwork> Learner for NormTrackingLearner<N> {
 
     fn logits(&mut self, x: &[f32], rows: usize) -> Result<Vec<f32>> {
         self.inner.logits(x, rows)
+    }
+
+    fn min_batch_rows(&self) -> usize {
+        self.min_rows
     }
 
     fn snapshot(&self) -> Result<Snapshot> {
@@ -145,7 +151,12 @@ pub(crate) fn train_image_cells_with_cut(
     network.set_augment(augment);
     let norms = network.params.norms.clone();
     let inner = AutogradLearner::new(network.clone(), &genome.training)?;
-    let mut learner = NormTrackingLearner { inner, norms };
+    let min_rows = network.min_batch_rows();
+    let mut learner = NormTrackingLearner {
+        inner,
+        norms,
+        min_rows,
+    };
     let batch_size = genome.training.batch_size as usize;
     let fitted = fit_with_cut(&mut learner, train, valid, settings, batch_size, cut)?;
     network.set_augment(false);
