@@ -217,18 +217,17 @@ fn print_text(
     if failed > 0 {
         println!("\n{failed} evaluation(s) failed; their messages are in the journal");
     }
-    let cut = contents
+    let (cut, epochs_cut) = contents
         .evaluations
         .iter()
         .filter(|r| r.status == EvalStatus::CurveCut)
-        .count();
+        .fold((0u64, 0u64), |(count, epochs), r| {
+            (
+                count + 1,
+                epochs + u64::from(max_epochs.saturating_sub(r.epochs)),
+            )
+        });
     if cut > 0 {
-        let epochs_cut: u64 = contents
-            .evaluations
-            .iter()
-            .filter(|r| r.status == EvalStatus::CurveCut)
-            .map(|r| u64::from(max_epochs.saturating_sub(r.epochs)))
-            .sum();
         println!(
             "\n{cut} evaluation(s) stopped by the learning-curve cut (status curve_cut), \
              {epochs_cut} epoch(s) not trained; their projections are in the journal"
