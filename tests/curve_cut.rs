@@ -326,7 +326,10 @@ fn the_evaluator_cuts_only_when_asked_and_reports_in_objective_terms() {
     assert_eq!(cut.epochs, first_cut_epoch(20));
     let accuracy = cut.scores["accuracy"];
     let objective = cut.objective.expect("scored");
-    assert!((objective - (accuracy - penalty)).abs() < 1e-12, "objective is penalised");
+    assert!(
+        (objective - (accuracy - penalty)).abs() < 1e-12,
+        "objective is penalised"
+    );
     let message = cut.message.as_deref().unwrap_or("");
     assert!(
         message.starts_with("learning-curve cut after epoch 5 of 20: best accuracy so far ")
@@ -339,7 +342,10 @@ fn the_evaluator_cuts_only_when_asked_and_reports_in_objective_terms() {
         .and_then(|rest| rest.split(',').next())
         .and_then(|number| number.parse().ok())
         .expect("a number after 'best accuracy so far'");
-    assert!(best_shown < 0.6 - penalty, "shown on the penalised scale: {message}");
+    assert!(
+        best_shown < 0.6 - penalty,
+        "shown on the penalised scale: {message}"
+    );
 
     // No bar, or the cut off: the candidate trains all 20 epochs.
     assert_eq!(evaluator.evaluate_with_bar(&genome(), 3, None).epochs, 20);
@@ -353,5 +359,9 @@ fn the_evaluator_cuts_only_when_asked_and_reports_in_objective_terms() {
     );
     let full = off.evaluate_with_bar(&genome(), 3, Some(bar));
     assert_eq!(full.status, EvalStatus::Completed);
-    assert_eq!(full, evaluator.evaluate(&genome(), 3), "evaluate() passes no bar");
+    assert_eq!(
+        full,
+        evaluator.evaluate(&genome(), 3),
+        "evaluate() passes no bar"
+    );
 }

@@ -5,7 +5,7 @@ use candle_core::Tensor;
 
 use super::params::{Norm, ParamBuilder};
 use crate::net::init::InitScheme;
-use crate::net::ops::conv2d;
+use crate::net::ops::{conv2d, relu};
 use crate::Result;
 
 /// The weights a module uses: tracked for gradients in training, detached otherwise.
@@ -124,7 +124,7 @@ impl ConvBn {
 
     /// The module's output for `x`.
     pub(crate) fn forward(&self, x: &Tensor, train: bool) -> Result<Tensor> {
-        let mut h = if self.relu { x.relu()? } else { x.clone() };
+        let mut h = if self.relu { relu(x)? } else { x.clone() };
         for conv in &self.convs {
             h = conv.forward(&h, train)?;
         }
@@ -161,7 +161,7 @@ impl FactorizedReduce {
 
     /// The reduced map, ⌈H/2⌉ × ⌈W/2⌉.
     pub(crate) fn forward(&self, x: &Tensor, train: bool) -> Result<Tensor> {
-        let x = x.relu()?;
+        let x = relu(x)?;
         let (height, width) = (x.dim(2)?, x.dim(3)?);
         let shifted = x
             .pad_with_zeros(2, 0, 1)?

@@ -98,7 +98,7 @@ impl TableOp {
             TableOp::Dense(linear, op) => {
                 let z = linear.forward(h, train)?;
                 Ok(match op {
-                    DenseOp::DenseRelu => z.relu()?,
+                    DenseOp::DenseRelu => crate::net::ops::relu(&z)?,
                     DenseOp::DenseTanh => z.tanh()?,
                     _ => z.gelu()?,
                 })

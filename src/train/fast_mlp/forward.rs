@@ -2,9 +2,9 @@
 
 use rand::{Rng, RngCore};
 
-use super::elementwise::{broadcast_rows, hidden_forward, HiddenForward};
+use super::elementwise::{hidden_forward, HiddenForward};
 use super::layout::LayerLayout;
-use super::matmul::{matmul_into, MatrixView};
+use super::matmul::{matmul_bias_into, MatrixView};
 use super::workspace::Workspace;
 use crate::Result;
 
@@ -44,12 +44,11 @@ pub(super) fn forward(
         };
         let pre = &mut space.pre[index][..n];
         let (weight, bias) = weight_and_bias(params, layout);
-        broadcast_rows(bias, pre);
-        matmul_into(
+        matmul_bias_into(
             pre,
             MatrixView::row_major(input, rows, layout.fan_in)?,
             MatrixView::row_major(weight, layout.fan_in, layout.fan_out)?,
-            true,
+            bias,
         )?;
         let mask: &[f32] = match dropout_rng.as_deref_mut() {
             Some(rng) if kind.dropout > 0.0 => {
@@ -73,12 +72,11 @@ pub(super) fn forward(
     };
     let logits = &mut space.logits[..rows * output_layout.fan_out];
     let (weight, bias) = weight_and_bias(params, output_layout);
-    broadcast_rows(bias, logits);
-    matmul_into(
+    matmul_bias_into(
         logits,
         MatrixView::row_major(input, rows, output_layout.fan_in)?,
         MatrixView::row_major(weight, output_layout.fan_in, output_layout.fan_out)?,
-        true,
+        bias,
     )
 }
 
