@@ -36,7 +36,7 @@ use gemmule::train::{fit, AutogradLearner, AutogradNetwork, PhaseTimes, TrainSet
 use mimalloc::MiMalloc;
 use rand::{Rng, RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use support::{load_average, machine, median, min_max, timed};
+use support::{load_average, machine, median, min_max, standard_normal, timed, write_dataset_csv};
 
 /// The allocator the `gemmule` binary uses, so buffer costs match the CLI.
 #[global_allocator]
@@ -79,30 +79,6 @@ fn synthetic_images() -> Dataset {
         y.push(class as u32);
     }
     Dataset::new(x, y, PIXELS, CLASSES).expect("consistent synthetic images")
-}
-
-/// Box–Muller.
-fn standard_normal(rng: &mut ChaCha8Rng) -> f32 {
-    let u1: f64 = rng.gen_range(f64::EPSILON..1.0);
-    let u2: f64 = rng.gen();
-    ((-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()) as f32
-}
-
-fn write_csv(data: &Dataset, path: &Path) -> std::io::Result<()> {
-    if let Some(folder) = path.parent() {
-        std::fs::create_dir_all(folder)?;
-    }
-    let mut text = String::with_capacity(IMAGES * PIXELS * 10);
-    let header: Vec<String> = (0..PIXELS).map(|p| format!("p{p}")).collect();
-    text.push_str(&header.join(","));
-    text.push_str(",label\n");
-    for row in 0..data.len() {
-        for value in data.row(row) {
-            text.push_str(&format!("{value},"));
-        }
-        text.push_str(&format!("{}\n", data.y[row]));
-    }
-    std::fs::write(path, text)
 }
 
 /// B5: two 3×3 convs with bias and ReLU, global average pool, linear head.
@@ -276,7 +252,7 @@ fn main() {
     std::env::set_var("RAYON_NUM_THREADS", "1");
     let options = options();
     let data = synthetic_images();
-    if let Err(e) = write_csv(&data, Path::new(DATA_FILE)) {
+    if let Err(e) = write_dataset_csv(&data, Path::new(DATA_FILE), "p") {
         eprintln!("could not write {DATA_FILE}: {e}");
     }
     println!("# gemmule conv/cell benchmarks: {IMAGES} images 8x8x1, {CLASSES} classes, {EPOCHS} epochs, Adam lr 1e-3, batch {BATCH}, 1 thread");

@@ -12,6 +12,8 @@
 //! Run: `cargo bench --bench trainer -- [--runs N] [--only B1,B3]
 //! [--engine fast|autograd|both] [--no-matmul]`.
 
+mod support;
+
 use std::path::Path;
 use std::time::{Duration, Instant};
 
@@ -22,6 +24,7 @@ use gemmule::train::{fit, matmul_row_major, AutogradLearner, FastMlpLearner, Tra
 use mimalloc::MiMalloc;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
+use support::{standard_normal, write_dataset_csv};
 
 /// The allocator the `gemmule` binary uses, so "autograd" numbers match the CLI.
 #[global_allocator]
@@ -112,30 +115,6 @@ fn synthetic_data() -> Dataset {
         y.push(class as u32);
     }
     Dataset::new(x, y, FEATURES, CLASSES).expect("consistent synthetic data")
-}
-
-/// Box–Muller.
-fn standard_normal(rng: &mut ChaCha8Rng) -> f32 {
-    let u1: f64 = rng.gen_range(f64::EPSILON..1.0);
-    let u2: f64 = rng.gen();
-    ((-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()) as f32
-}
-
-fn write_csv(data: &Dataset, path: &Path) -> std::io::Result<()> {
-    if let Some(folder) = path.parent() {
-        std::fs::create_dir_all(folder)?;
-    }
-    let mut text = String::with_capacity(ROWS * FEATURES * 10);
-    let header: Vec<String> = (0..FEATURES).map(|f| format!("f{f}")).collect();
-    text.push_str(&header.join(","));
-    text.push_str(",label\n");
-    for row in 0..data.len() {
-        for value in data.row(row) {
-            text.push_str(&format!("{value},"));
-        }
-        text.push_str(&format!("{}\n", data.y[row]));
-    }
-    std::fs::write(path, text)
 }
 
 fn genome(bench: &Bench) -> LayerGenome {
@@ -327,7 +306,7 @@ fn main() {
     std::env::set_var("RAYON_NUM_THREADS", "1");
     let options = options();
     let data = synthetic_data();
-    if let Err(e) = write_csv(&data, Path::new(DATA_FILE)) {
+    if let Err(e) = write_dataset_csv(&data, Path::new(DATA_FILE), "f") {
         eprintln!("could not write {DATA_FILE}: {e}");
     }
     println!("# gemmule trainer benchmarks: {ROWS}x{FEATURES}, {CLASSES} classes, {EPOCHS} epochs, Adam lr 1e-3, 1 thread");

@@ -4,6 +4,9 @@
 // Each bench binary compiles this module and uses a different subset of it.
 #![allow(dead_code)]
 
+use gemmule::data::Dataset;
+use rand::Rng;
+use std::path::Path;
 use std::time::Instant;
 
 /// CPU seconds this thread has run: unlike wall time, not inflated while
@@ -75,4 +78,32 @@ pub fn machine() -> String {
         .unwrap_or_else(|| "unknown".into());
     let cpus = std::thread::available_parallelism().map_or(0, |n| n.get());
     format!("{model} ({cpus} logical cpus)")
+}
+
+/// A standard normal draw by the Box–Muller transform (seeded synthetic data).
+pub fn standard_normal<R: Rng>(rng: &mut R) -> f32 {
+    let u1: f64 = rng.gen_range(f64::EPSILON..1.0);
+    let u2: f64 = rng.gen();
+    ((-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()) as f32
+}
+
+/// Writes `data` as CSV for the reference scripts: columns `{prefix}0`,
+/// `{prefix}1`, … and `label` (the class index).
+pub fn write_dataset_csv(data: &Dataset, path: &Path, prefix: &str) -> std::io::Result<()> {
+    if let Some(folder) = path.parent() {
+        std::fs::create_dir_all(folder)?;
+    }
+    let mut text = String::with_capacity(data.len() * data.n_features * 10);
+    let header: Vec<String> = (0..data.n_features)
+        .map(|column| format!("{prefix}{column}"))
+        .collect();
+    text.push_str(&header.join(","));
+    text.push_str(",label\n");
+    for row in 0..data.len() {
+        for value in data.row(row) {
+            text.push_str(&format!("{value},"));
+        }
+        text.push_str(&format!("{}\n", data.y[row]));
+    }
+    std::fs::write(path, text)
 }
