@@ -3,6 +3,7 @@
 
 use crate::data::image::ImageShape;
 use crate::data::SplitFractions;
+use crate::evaluate::TrainerSettings;
 use crate::genome::{Activation, AnySpace, Encoding, LayerSpace};
 use crate::train::Objective;
 use crate::workflow::{DataFormat, DataSource};
@@ -477,6 +478,21 @@ pub struct SearchArgs {
     /// file holding one genome or an array of genomes (e.g. minimal networks).
     #[arg(long, value_name = "GENOMES.json")]
     pub seed_genomes: Option<PathBuf>,
+    #[command(flatten)]
+    /// How candidates are trained and ranked.
+    pub trainer: TrainerArgs,
+    #[command(flatten)]
+    /// The search space.
+    pub space: SpaceArgs,
+    /// No progress bar.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// How every candidate of a search is trained and ranked: the trainer
+/// options `search` and `compare` share.
+#[derive(Debug, Args)]
+pub struct TrainerArgs {
     /// Most epochs per candidate.
     #[arg(long, value_name = "N", default_value_t = 30)]
     pub epochs: u32,
@@ -505,15 +521,27 @@ pub struct SearchArgs {
     pub augment: bool,
     /// Stop training a candidate once its validation curve, extrapolated
     /// optimistically, cannot reach the population's worst score by its last
-    /// epoch (journaled as curve_cut; aging evolution only).
+    /// epoch (journaled as curve_cut). Aging evolution only: random search
+    /// keeps no population (`search` refuses it, `compare` cuts only evolution).
     #[arg(long)]
     pub curve_cut: bool,
-    #[command(flatten)]
-    /// The search space.
-    pub space: SpaceArgs,
-    /// No progress bar.
-    #[arg(long, short)]
-    pub quiet: bool,
+}
+
+impl TrainerArgs {
+    /// The settings these options ask for.
+    pub fn settings(&self) -> TrainerSettings {
+        TrainerSettings {
+            max_epochs: self.epochs,
+            patience: self.patience,
+            objective: self.objective,
+            max_params: self.max_params,
+            max_madds: self.max_madds,
+            size_penalty: self.size_penalty,
+            max_memory_mb: self.max_memory_mb,
+            augment: self.augment,
+            curve_cut: self.curve_cut,
+        }
+    }
 }
 
 /// Options of `gemmule resume`.

@@ -7,7 +7,7 @@ use super::progress::ProgressObserver;
 use super::show::show;
 use super::EXIT_INTERRUPTED;
 use crate::bundle::ModelBundle;
-use crate::evaluate::{scores_map, TrainerSettings};
+use crate::evaluate::scores_map;
 use crate::genome::{AnyGenome, AnySpace, SearchSpace};
 use crate::model::{genome_cost, train_genome};
 use crate::search::{AgingSettings, Budget, Journal, SearchEnding, SearchOutcome};
@@ -284,7 +284,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
                 )
                 .into());
             }
-            if a.curve_cut {
+            if a.trainer.curve_cut {
                 return Err(Error::input(
                     "--curve-cut measures candidates against the population's worst score, and \
                      random search keeps no population, so nothing would be cut: drop \
@@ -319,17 +319,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
         source,
         space,
         strategy,
-        trainer: TrainerSettings {
-            max_epochs: a.epochs,
-            patience: a.patience,
-            objective: a.objective,
-            max_params: a.max_params,
-            max_madds: a.max_madds,
-            size_penalty: a.size_penalty,
-            max_memory_mb: a.max_memory_mb,
-            augment: a.augment,
-            curve_cut: a.curve_cut,
-        },
+        trainer: a.trainer.settings(),
         seed: a.seed,
         jobs,
         budget: Budget {

@@ -1,14 +1,12 @@
 //! `gemmule compare`: several strategies × several seeds with equal budgets,
 //! then a table (or JSON) of how they fared and whether evolution beat random search.
 
-use super::args::{DataArgs, SpaceArgs, StrategyArg};
+use super::args::{DataArgs, SpaceArgs, StrategyArg, TrainerArgs};
 use super::progress::ProgressObserver;
 use super::EXIT_INTERRUPTED;
-use crate::evaluate::TrainerSettings;
 use crate::genome::AnyGenome;
 use crate::search::{EvaluationRecord, SearchObserver, SearchOutcome};
 use crate::stats::{Summary, DEFAULT_RESAMPLES};
-use crate::train::Objective;
 use crate::workflow::{
     ComparePlan, ComparedStrategy, Comparison, ComparisonEnding, ComparisonObserver,
     ComparisonReport, PlannedRun, ReportOptions, RunState,
@@ -52,35 +50,9 @@ pub struct CompareArgs {
     /// the recorded value when continuing, else available cores).
     #[arg(long, value_name = "N")]
     pub jobs: Option<usize>,
-    /// Most epochs per candidate.
-    #[arg(long, value_name = "N", default_value_t = 30)]
-    pub epochs: u32,
-    /// Epochs without a lower validation loss before a candidate stops (0: never).
-    #[arg(long, value_name = "N", default_value_t = 5)]
-    pub patience: u32,
-    /// Validation score that ranks candidates.
-    #[arg(long, value_enum, default_value_t = Objective::Accuracy)]
-    pub objective: Objective,
-    /// Candidates with more trainable parameters are recorded as over budget, not trained.
-    #[arg(long, value_name = "N")]
-    pub max_params: Option<u64>,
-    /// Candidates with more multiply-adds per example are recorded as over budget, not trained.
-    #[arg(long, value_name = "N")]
-    pub max_madds: Option<u64>,
-    /// Prefer compact candidates: rank by validation score − λ·log10(parameters).
-    #[arg(long, value_name = "LAMBDA")]
-    pub size_penalty: Option<f64>,
-    /// Candidates whose estimated training memory is over this many MiB are
-    /// recorded as over budget, not trained.
-    #[arg(long, value_name = "MIB")]
-    pub max_memory_mb: Option<u64>,
-    /// Shift training images by up to one pixel (seeded; cells_image only).
-    #[arg(long)]
-    pub augment: bool,
-    /// Learning-curve cut for the evolution runs (see `search --curve-cut`);
-    /// random search keeps no population, so its candidates always train in full.
-    #[arg(long)]
-    pub curve_cut: bool,
+    #[command(flatten)]
+    /// How candidates are trained and ranked.
+    pub trainer: TrainerArgs,
     #[command(flatten)]
     /// The search space.
     pub space: SpaceArgs,
@@ -156,17 +128,7 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
                 .unwrap_or(1),
         },
     };
-    let trainer = TrainerSettings {
-        max_epochs: a.epochs,
-        patience: a.patience,
-        objective: a.objective,
-        max_params: a.max_params,
-        max_madds: a.max_madds,
-        size_penalty: a.size_penalty,
-        max_memory_mb: a.max_memory_mb,
-        augment: a.augment,
-        curve_cut: a.curve_cut,
-    };
+    let trainer = a.trainer.settings();
     let source = a.data.source()?;
     let space = a.space.any_space(source.is_images())?;
     Ok(ComparePlan::new(
