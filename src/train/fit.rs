@@ -87,7 +87,7 @@ pub fn fit_with_cut(
         learner.n_classes(),
     )?;
     let min_rows = learner.min_batch_rows().max(1);
-    if train.len() < min_rows || batch_size < min_rows {
+    if min_rows > 1 && (train.len() < min_rows || batch_size < min_rows) {
         return Err(crate::Error::input(format!(
             "this network needs at least {min_rows} rows per training batch (batch norm on \
              1×1 maps), but the batch size is {batch_size} and the training split has {} rows",
