@@ -24,7 +24,9 @@ use gemmule::train::{fit, matmul_row_major, AutogradLearner, FastMlpLearner, Tra
 use mimalloc::MiMalloc;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use support::{standard_normal, write_dataset_csv};
+use support::{
+    load_average, machine, median, standard_normal, thread_cpu_seconds, write_dataset_csv,
+};
 
 /// The allocator the `gemmule` binary uses, so "autograd" numbers match the CLI.
 #[global_allocator]
@@ -190,44 +192,6 @@ fn train_once(
     }
 }
 
-/// CPU seconds this thread has run: unlike wall time, not inflated while
-/// other processes hold the core (cache sharing still costs something).
-fn thread_cpu_seconds() -> f64 {
-    let mut time = libc::timespec {
-        tv_sec: 0,
-        tv_nsec: 0,
-    };
-    // SAFETY: `time` is a valid, writable timespec for the call's duration.
-    let status = unsafe { libc::clock_gettime(libc::CLOCK_THREAD_CPUTIME_ID, &mut time) };
-    if status != 0 {
-        return f64::NAN;
-    }
-    time.tv_sec as f64 + time.tv_nsec as f64 * 1e-9
-}
-
-fn median(values: &mut [f64]) -> f64 {
-    values.sort_by(f64::total_cmp);
-    values[values.len() / 2]
-}
-
-fn load_average() -> String {
-    std::fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_else(|_| "unknown".into())
-}
-
-fn cpu_model() -> String {
-    std::fs::read_to_string("/proc/cpuinfo")
-        .ok()
-        .and_then(|s| {
-            s.lines()
-                .find(|l| l.starts_with("model name"))
-                .and_then(|l| l.split(':').nth(1))
-                .map(|m| m.trim().to_string())
-        })
-        .unwrap_or_else(|| "unknown".into())
-}
-
 /// GFLOP/s of an m×k by k×n f32 matmul through our GEMM path: median over
 /// `runs` repetitions after a warm-up, by wall time and by thread CPU time.
 fn matmul_rate((m, k, n): (usize, usize, usize), runs: usize) -> (f64, f64) {
@@ -250,7 +214,7 @@ fn matmul_rate((m, k, n): (usize, usize, usize), runs: usize) -> (f64, f64) {
         }
     }
     std::hint::black_box(&c);
-    (median(&mut wall_rates), median(&mut cpu_rates))
+    (median(&wall_rates), median(&cpu_rates))
 }
 
 /// Warm-up, `runs` timed runs, one table row and one `result` line.
@@ -272,8 +236,8 @@ fn report(bench: &Bench, engine: &str, data: &Dataset, runs: usize) {
     }
     let min = per_epoch.iter().copied().fold(f64::INFINITY, f64::min);
     let max = per_epoch.iter().copied().fold(0.0, f64::max);
-    let med = median(&mut per_epoch);
-    let cpu = median(&mut cpu_per_epoch);
+    let med = median(&per_epoch);
+    let cpu = median(&cpu_per_epoch);
     let samples = ROWS as f64 / med;
     let phase = |i: usize| match split_total {
         Some(total) => {
@@ -311,9 +275,8 @@ fn main() {
     }
     println!("# gemmule trainer benchmarks: {ROWS}x{FEATURES}, {CLASSES} classes, {EPOCHS} epochs, Adam lr 1e-3, 1 thread");
     println!(
-        "# cpu: {} ({} logical cpus); load average at start: {}",
-        cpu_model(),
-        std::thread::available_parallelism().map_or(0, |n| n.get()),
+        "# cpu: {}; load average at start: {}",
+        machine(),
         load_average()
     );
     println!(
