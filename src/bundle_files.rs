@@ -23,7 +23,9 @@
 //! Names read from `model.json` never become paths outside the folder: a
 //! weights name must be a plain file name ending in `.safetensors`.
 
-use crate::fsio::{commit_temp, is_temp_of, sync_dir, temp_sibling, write_atomic};
+use crate::fsio::{
+    commit_temp, crash_point, remove_stale_temps, sync_dir, temp_sibling, write_atomic,
+};
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
@@ -76,6 +78,8 @@ pub fn save_model_folder(
     };
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
     let _guard = FolderLock::exclusive(dir);
+    // What saves killed before this one left behind (no other save runs now).
+    remove_stale_temps(dir);
     let temp = temp_sibling(&dir.join("weights"));
     let written = write_weights(&temp)
         .and_then(|()| readable_by_all(&temp))
@@ -87,12 +91,14 @@ pub fn save_model_folder(
             return Err(save_failure(error, dir, "the weights"));
         }
     };
+    crash_point("weights:temp-written");
     let weights_path = dir.join(&reference.file);
     let existed = weights_path.exists();
     if let Err(error) = commit_temp(&temp, &weights_path) {
         let _ = std::fs::remove_file(&temp);
         return Err(save_failure(error, dir, "the weights"));
     }
+    crash_point("weights:committed");
     let entry = serde_json::to_value(&reference)
         .map_err(|e| Error::internal(format!("weights reference: {e}")))?;
     fields.insert(WEIGHTS_KEY.to_string(), entry);
@@ -107,6 +113,7 @@ pub fn save_model_folder(
         return Err(error);
     }
     remove_leftovers(dir, &reference.file);
+    crash_point("model:saved");
     Ok(reference)
 }
 
@@ -367,8 +374,9 @@ fn describe_file_limited(path: &Path, limit: u64) -> Result<WeightsRef> {
 }
 
 /// Removes what earlier saves left: weights files other than `keep`, the
-/// format-1 weights file, and temporary files of crashed saves. Called with
-/// the folder's exclusive lock held, after the new `model.json` is durable.
+/// format-1 weights file, and gemmule's temporary files of saves whose
+/// process is gone ([`remove_stale_temps`]). Called with the folder's
+/// exclusive lock held, after the new `model.json` is durable.
 fn remove_leftovers(dir: &Path, keep: &str) {
     let Ok(entries) = std::fs::read_dir(dir) else {
         return;
@@ -379,14 +387,14 @@ fn remove_leftovers(dir: &Path, keep: &str) {
         let Some(name) = name.to_str() else { continue };
         let old_weights =
             name != keep && (name == LEGACY_WEIGHTS_FILE || is_content_addressed(name));
-        let temp = is_temp_of(name, "weights") || is_temp_of(name, DESCRIPTION_FILE);
-        if old_weights || temp {
+        if old_weights {
             removed |= std::fs::remove_file(entry.path()).is_ok();
         }
     }
     if removed {
         sync_dir(dir);
     }
+    remove_stale_temps(dir);
 }
 
 /// Whether `name` is `weights-<12 hex>.safetensors`.
@@ -480,7 +488,17 @@ mod tests {
         assert_eq!(first.file, "weights-ba7816bf8f01.safetensors");
         assert_eq!(first.bytes, 3);
         std::fs::write(dir.path().join(LEGACY_WEIGHTS_FILE), b"old").expect("legacy file");
-        std::fs::write(dir.path().join("weights.77-0.partial"), b"torn").expect("leftover");
+        let mut gone = std::process::Command::new("true")
+            .spawn()
+            .expect("true runs");
+        let dead = gone.id();
+        gone.wait().expect("reaped");
+        let torn = format!(
+            "{}{dead}-0-weights{}",
+            crate::fsio::TEMP_PREFIX,
+            crate::fsio::TEMP_SUFFIX
+        );
+        std::fs::write(dir.path().join(torn), b"torn").expect("leftover");
         let second = save(dir.path(), b"abcd");
         assert_eq!(
             names(dir.path()),

@@ -1,7 +1,9 @@
 //! Model folders survive a SIGKILL at any moment of a save: `gemmule train
-//! --out DIR` is killed at 20 seeded moments around its save, each time over
-//! the model an earlier run saved, and the folder must always load and
-//! predict exactly as the old model or as the new one, never a mix (the
+//! --out DIR` kills itself at each step of its save (the `GEMMULE_CRASH_AT`
+//! test hook) and is killed at 20 seeded moments of whole runs, each time
+//! over the model an earlier run saved, and the folder must always load and
+//! predict exactly as the old model or as the new one, never a mix; the next
+//! complete save leaves only its own files and the user's (the
 //! crash-consistency rule of the reliability issue; common practice, no
 //! outside source). Also: older folders (model format 1) still load, and a
 //! tampered or escaping weights reference is refused.
@@ -11,8 +13,9 @@
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use std::collections::BTreeMap;
+use std::os::unix::process::ExitStatusExt;
 use std::path::{Path, PathBuf};
-use std::process::{Child, Command, Output, Stdio};
+use std::process::{Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
 /// Distinct training seeds (so consecutive saves differ); one reference each.
@@ -80,28 +83,6 @@ fn saved_seed(dir: &Path) -> u64 {
     value["provenance"]["seed"].as_u64().expect("a seed")
 }
 
-/// Waits until `child` starts saving into `dir` (its temporary weights file
-/// appears; true) or exits first (false).
-fn wait_for_save(dir: &Path, child: &mut Child) -> bool {
-    let prefix = format!("weights.{}-", child.id());
-    loop {
-        let saving = std::fs::read_dir(dir).is_ok_and(|entries| {
-            entries.flatten().any(|e| {
-                e.file_name()
-                    .to_str()
-                    .is_some_and(|n| n.starts_with(&prefix))
-            })
-        });
-        if saving {
-            return true;
-        }
-        if matches!(child.try_wait(), Ok(Some(_))) {
-            return false;
-        }
-        std::thread::sleep(Duration::from_micros(200));
-    }
-}
-
 fn file_names(dir: &Path) -> Vec<String> {
     let mut names: Vec<String> = std::fs::read_dir(dir)
         .expect("listable")
@@ -111,6 +92,48 @@ fn file_names(dir: &Path) -> Vec<String> {
     names.sort();
     names
 }
+
+/// Trains over `victim` with `seed` and checks the folder afterwards: it
+/// describes the model it held before or the new one, and predicts exactly
+/// like the reference model of the seed it names. Returns that seed.
+fn check_after_kill(
+    victim: &Path,
+    before: u64,
+    seed: u64,
+    expected: &BTreeMap<u64, Vec<u8>>,
+    what: &str,
+) -> u64 {
+    let now = saved_seed(victim);
+    assert!(
+        now == before || now == seed,
+        "{what}: model.json names seed {now}, neither the old {before} nor the new {seed}"
+    );
+    assert!(
+        predictions(victim) == expected[&now],
+        "{what}: the folder predicts unlike the model of seed {now} it describes"
+    );
+    now
+}
+
+/// The other seed to save over a folder that holds `before`.
+fn next_seed(before: u64, turn: usize) -> u64 {
+    let seed = SEEDS[(turn + 1) % SEEDS.len()];
+    if seed == before {
+        SEEDS[(turn + 2) % SEEDS.len()]
+    } else {
+        seed
+    }
+}
+
+/// The steps of a save at which `GEMMULE_CRASH_AT` makes the process kill
+/// itself, in order, and whether the folder must then hold the new model.
+const CRASH_POINTS: [(&str, bool); 5] = [
+    ("weights:temp-written", false),
+    ("weights:committed", false),
+    ("model.json:temp-written", false),
+    ("model.json:committed", true),
+    ("model:saved", true),
+];
 
 #[test]
 fn a_save_killed_at_any_moment_leaves_the_old_or_the_new_model() {
@@ -126,7 +149,7 @@ fn a_save_killed_at_any_moment_leaves_the_old_or_the_new_model() {
             .output()
             .expect("runs");
         assert!(output.status.success(), "{}", text(&output));
-        // Wall time only places the kills; no result depends on it.
+        // Wall time only places the random kills below; no assertion depends on it.
         run_ms = run_ms.max(started.elapsed().as_millis() as u64);
         expected.insert(seed, predictions(&reference));
     }
@@ -138,55 +161,68 @@ fn a_save_killed_at_any_moment_leaves_the_old_or_the_new_model() {
     );
 
     let victim = dir.path().join("victim");
-    let mut first = train_command(&genome, &victim, SEEDS[0])
-        .spawn()
-        .expect("starts");
-    assert!(wait_for_save(&victim, &mut first), "the first run saves");
-    let started = Instant::now();
-    assert!(first.wait().expect("reaped").success());
-    let save_ms = started.elapsed().as_millis() as u64;
+    let output = train_command(&genome, &victim, SEEDS[0])
+        .output()
+        .expect("runs");
+    assert!(output.status.success(), "{}", text(&output));
+
+    // Deterministic kills: the process kills itself at each step of the save
+    // (a test hook, src/fsio.rs `crash_point`), twice each, so every step is
+    // hit whatever the machine's speed.
+    for (turn, (point, new_expected)) in CRASH_POINTS
+        .iter()
+        .cycle()
+        .take(2 * CRASH_POINTS.len())
+        .enumerate()
+    {
+        let before = saved_seed(&victim);
+        let seed = next_seed(before, turn);
+        let output = train_command(&genome, &victim, seed)
+            .env("GEMMULE_CRASH_AT", point)
+            .output()
+            .expect("runs");
+        assert_eq!(
+            output.status.signal(),
+            Some(9),
+            "{point}: the process killed itself there; {}",
+            text(&output)
+        );
+        if point.ends_with("temp-written") {
+            assert!(
+                file_names(&victim)
+                    .iter()
+                    .any(|n| n.starts_with(".gemmule-")),
+                "{point}: the killed save left its temporary file: {:?}",
+                file_names(&victim)
+            );
+        }
+        let now = check_after_kill(&victim, before, seed, &expected, point);
+        assert_eq!(
+            now == seed,
+            *new_expected,
+            "{point}: which model the folder holds"
+        );
+    }
+
+    // Kills at seeded random moments of whole runs: the same rule must hold
+    // for every interleaving.
     let mut rng = ChaCha8Rng::seed_from_u64(77);
-    let (mut kept_old, mut took_new, mut killed_running, mut mid_save) = (0, 0, 0, 0);
+    let (mut kept_old, mut took_new, mut killed_running) = (0, 0, 0);
     for kill in 0..KILLS {
         let before = saved_seed(&victim);
-        let seed = SEEDS[(kill + 1) % SEEDS.len()];
-        let seed = if seed == before {
-            SEEDS[(kill + 2) % SEEDS.len()]
-        } else {
-            seed
-        };
+        let seed = next_seed(before, kill);
         let mut child = train_command(&genome, &victim, seed)
             .stdout(Stdio::null())
             .stderr(Stdio::null())
             .spawn()
             .expect("starts");
-        // Every other kill lands inside the save (it starts when the weights'
-        // temporary file appears); the others anywhere in the run.
-        if kill % 2 == 0 {
-            wait_for_save(&victim, &mut child);
-            std::thread::sleep(Duration::from_millis(rng.gen_range(0..=save_ms)));
-        } else {
-            std::thread::sleep(Duration::from_millis(rng.gen_range(0..=run_ms)));
-        }
+        std::thread::sleep(Duration::from_millis(rng.gen_range(0..=run_ms)));
         if child.try_wait().expect("status").is_none() {
             killed_running += 1;
         }
         let _ = child.kill();
         child.wait().expect("reaped");
-        // More than model.json and one weights file: killed inside a save.
-        if file_names(&victim).len() > 2 {
-            mid_save += 1;
-        }
-        let now = saved_seed(&victim);
-        assert!(
-            now == before || now == seed,
-            "kill {kill}: model.json names seed {now}, neither the old {before} nor the new {seed}"
-        );
-        let predicted = predictions(&victim);
-        assert!(
-            predicted == expected[&now],
-            "kill {kill}: the folder predicts unlike the model of seed {now} it describes"
-        );
+        let now = check_after_kill(&victim, before, seed, &expected, &format!("kill {kill}"));
         if now == before {
             kept_old += 1;
         } else {
@@ -194,19 +230,20 @@ fn a_save_killed_at_any_moment_leaves_the_old_or_the_new_model() {
         }
     }
     eprintln!(
-        "{KILLS} kills (save {save_ms} ms of a {run_ms} ms run): {killed_running} hit a \
-         running process, {mid_save} found save files left behind; {kept_old} left the old \
-         model, {took_new} the new one"
+        "{KILLS} random kills in a {run_ms} ms run: {killed_running} hit a running process; \
+         {kept_old} left the old model, {took_new} the new one"
     );
-    // A save that completes cleans up what killed saves left behind.
+    // A save that completes cleans up what killed saves left behind, and
+    // nothing else.
+    std::fs::write(victim.join("notes.txt"), b"the user's own file").expect("a user file");
     let output = train_command(&genome, &victim, SEEDS[0])
         .output()
         .expect("runs");
     assert!(output.status.success(), "{}", text(&output));
     let names = file_names(&victim);
-    assert_eq!(names.len(), 2, "{names:?}");
+    assert_eq!(names.len(), 3, "{names:?}");
     assert!(
-        names[0] == "model.json" && names[1].starts_with("weights-"),
+        names[0] == "model.json" && names[1] == "notes.txt" && names[2].starts_with("weights-"),
         "{names:?}"
     );
     assert!(predictions(&victim) == expected[&SEEDS[0]]);

@@ -193,7 +193,17 @@ fn ensure_reuses_matching_files_and_repairs_the_rest() {
     let glyph = dir.path().join(GLYPH_FOLDER).join("ring/0002.png");
     std::fs::write(&glyph, b"not a png").expect("write");
     std::fs::remove_file(dir.path().join(ROAST_FILE)).expect("remove");
-    let leftover = dir.path().join(GLYPH_FOLDER).join("dot/0001.png.partial");
+    // A temporary file named the way gemmule names its own, by a process
+    // that has exited (a spawned and reaped `true`).
+    let mut gone = std::process::Command::new("true")
+        .spawn()
+        .expect("true runs");
+    let dead = gone.id();
+    gone.wait().expect("reaped");
+    let leftover = dir
+        .path()
+        .join(GLYPH_FOLDER)
+        .join(format!(".gemmule-{dead}-0-0001.png.partial"));
     std::fs::write(&leftover, b"half").expect("write");
     let repaired = ensure_demo_data_with(dir.path(), &table, &small).expect("repairs");
     assert_eq!(repaired.written, 2);

@@ -62,6 +62,7 @@ pub fn ensure_demo_data_with(
         std::fs::create_dir_all(&folder).map_err(|e| Error::io(&folder, e))?;
     }
     check_glyph_folder(&glyph_root, &files)?;
+    crate::fsio::remove_stale_temps(dir);
     let table_path = dir.join(ROAST_FILE);
     let mut written = usize::from(write_if_different(&table_path, csv.as_bytes())?);
     for (relative, bytes) in &files {
@@ -118,7 +119,7 @@ fn manifest_json(
 }
 
 /// Refuses entries of the glyph folder the generator would not write;
-/// removes our own leftover temp files.
+/// removes our own leftover temp files whose writer is gone.
 fn check_glyph_folder(root: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
     let expected: std::collections::BTreeSet<&str> = files
         .iter()
@@ -130,11 +131,13 @@ fn check_glyph_folder(root: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
         if !GLYPH_CLASSES.contains(&class_name.as_str()) || !class_path.is_dir() {
             return Err(stray(&class_path));
         }
+        crate::fsio::remove_stale_temps(&class_path);
         for file_entry in sorted_entries(&class_path)? {
             let name = file_entry.file_name().to_string_lossy().into_owned();
             let path = file_entry.path();
-            if name.ends_with(".partial") && path.is_file() {
-                std::fs::remove_file(&path).map_err(|e| Error::io(&path, e))?;
+            if crate::fsio::parse_temp_name(&name).is_some() {
+                // Removed below when its writer is gone; a live writer's file
+                // (another demo writing the same folder) is not a stray.
             } else if !expected.contains(format!("{class_name}/{name}").as_str()) {
                 return Err(stray(&path));
             }

@@ -14,6 +14,7 @@ mod mlp_from_values;
 pub mod ops;
 mod param_spec;
 mod seeded;
+mod tensor_file;
 
 pub use cell_cost::{
     cell_cost, image_cell_stages, table_cell_cost, table_cell_stages, CellStage, StateShape,
@@ -26,3 +27,4 @@ pub use cost::{layer_cost, Cost};
 pub use mlp::Mlp;
 pub use param_spec::{parameter_specs, ParameterSpec};
 pub use seeded::seeded_rng;
+pub use tensor_file::write_tensor_file;

@@ -96,6 +96,8 @@ pub fn write_report(dir: &Path, out: Option<&Path>) -> Result<ReportFiles> {
         summary: out.join(SUMMARY_JSON),
         candidates: out.join(CANDIDATES_CSV),
     };
+    // Temporary files of an earlier report writer that was killed.
+    crate::fsio::remove_stale_temps(out);
     crate::fsio::write_atomic(&files.html, documents.html.as_bytes())?;
     crate::fsio::write_atomic(&files.summary, documents.summary_json.as_bytes())?;
     crate::fsio::write_atomic(&files.candidates, documents.candidates_csv.as_bytes())?;

@@ -16,7 +16,7 @@
 use super::journal_read::parse_journal;
 use super::lock::RunLock;
 use super::records::{EvaluationRecord, RunHeader};
-use crate::fsio::{create_new_atomic, is_temp_of, open_no_follow};
+use crate::fsio::{create_new_atomic, open_no_follow, remove_stale_temps};
 use crate::{Error, Result};
 use serde::{de::DeserializeOwned, Serialize};
 use std::fs::{File, OpenOptions};
@@ -126,6 +126,7 @@ impl Journal {
     /// empty journal behind.
     pub fn create_with(run_dir: &Path, header: &RunHeader, wrap: &SinkFactory) -> Result<Journal> {
         let path = Journal::path_in(run_dir);
+        // Temporary files of a process killed while it created this journal.
         remove_stale_temps(run_dir);
         let line = record_line("header", header)?;
         create_new_atomic(&path, &line).map_err(|e| match e {
@@ -154,6 +155,9 @@ impl Journal {
     /// [`Journal::reopen`] writing through the sink `wrap` builds.
     pub fn reopen_with(run_dir: &Path, intact_len: u64, wrap: &SinkFactory) -> Result<Journal> {
         let path = Journal::path_in(run_dir);
+        // Temporary files of writers killed in this run folder (the caller
+        // holds the run lock, so no other writer is there).
+        remove_stale_temps(run_dir);
         let file = open_for_append(&path)?;
         let length = file.metadata().map_err(|e| Error::io(&path, e))?.len();
         if length < intact_len {
@@ -236,23 +240,6 @@ fn record_line<T: Serialize>(kind: &str, body: &T) -> Result<Vec<u8>> {
         .map_err(|e| Error::internal(format!("journal record not serializable: {e}")))?;
     line.push(b'\n');
     Ok(line)
-}
-
-/// Removes temporary journal files left by a process killed while it
-/// created a journal (the caller holds the run lock, so none is in use).
-fn remove_stale_temps(run_dir: &Path) {
-    let Ok(entries) = std::fs::read_dir(run_dir) else {
-        return;
-    };
-    for entry in entries.flatten() {
-        if entry
-            .file_name()
-            .to_str()
-            .is_some_and(|name| is_temp_of(name, JOURNAL_FILE))
-        {
-            let _ = std::fs::remove_file(entry.path());
-        }
-    }
 }
 
 fn open_for_append(path: &Path) -> Result<File> {

@@ -25,10 +25,7 @@ impl TrainedModel {
             .zip(network.parameters())
             .map(|(name, tensor)| (name, tensor.detach()))
             .collect();
-        candle_core::safetensors::save(&tensors, path).map_err(|e| match e {
-            candle_core::Error::Io(source) => Error::io(path, source),
-            other => Error::io(path, std::io::Error::other(other.to_string())),
-        })
+        crate::net::write_tensor_file(&tensors, path)
     }
 
     /// Reads weights saved by [`TrainedModel::save_safetensors`] for the

@@ -216,6 +216,8 @@ impl ComparePlan {
         let mut text = serde_json::to_string_pretty(&file)
             .map_err(|e| Error::internal(format!("comparison plan: {e}")))?;
         text.push('\n');
+        // Temporary files of an earlier writer of the plan that was killed.
+        crate::fsio::remove_stale_temps(dir);
         crate::fsio::write_atomic(&ComparePlan::path_in(dir), text.as_bytes())
     }
 

@@ -76,10 +76,7 @@ impl ParamSet {
     /// Writes every tensor to `path`.
     pub(crate) fn save(&self, path: &Path) -> Result<()> {
         let tensors: HashMap<String, Tensor> = self.named_tensors()?.into_iter().collect();
-        candle_core::safetensors::save(&tensors, path).map_err(|e| match e {
-            candle_core::Error::Io(source) => Error::io(path, source),
-            other => Error::io(path, std::io::Error::other(other.to_string())),
-        })
+        crate::net::write_tensor_file(&tensors, path)
     }
 
     /// Reads `path` into this set; errors name the file.
