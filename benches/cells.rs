@@ -156,11 +156,7 @@ struct RunTimes {
 
 /// Trains a fresh network of benchmark `name` for `EPOCHS` epochs.
 fn run_once(name: &str, data: &Dataset, seed: u64) -> RunTimes {
-    let settings = TrainSettings {
-        max_epochs: EPOCHS,
-        patience: 0,
-        seed,
-    };
+    let settings = TrainSettings::new(EPOCHS, 0, seed);
     let genes = bench_genes();
     let (split, wall_seconds, cpu_seconds) = timed(|| {
         if name == "B5" {

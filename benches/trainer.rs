@@ -166,11 +166,7 @@ fn train_once(
     seed: u64,
 ) -> (f64, Option<[Duration; 3]>) {
     let genome = genome(bench);
-    let settings = TrainSettings {
-        max_epochs: EPOCHS,
-        patience: 0,
-        seed,
-    };
+    let settings = TrainSettings::new(EPOCHS, 0, seed);
     let batch = bench.batch as usize;
     if engine == "fast" {
         let mut learner =

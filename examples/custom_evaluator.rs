@@ -32,6 +32,7 @@ impl Evaluator<LayerGenome> for WidthTarget {
             epochs: 0,
             best_epoch: 0,
             message: None,
+            folds: None,
         }
     }
 }
@@ -48,6 +49,7 @@ fn search(
         space: space.describe(),
         data: serde_json::json!({ "note": "no data: a custom scoring function" }),
         trainer: serde_json::json!({ "evaluator": "width_target" }),
+        baselines: Vec::new(),
     };
     let stop = AtomicBool::new(false);
     let context = SearchContext {

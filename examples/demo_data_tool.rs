@@ -118,11 +118,7 @@ fn prepared_table(dir: &Path, spec: &RoastTableSpec, split_seed: u64) -> Prepare
 }
 
 fn accuracy(genome: &LayerGenome, data: &Prepared, epochs: u32, seed: u64) -> f64 {
-    let settings = TrainSettings {
-        max_epochs: epochs,
-        patience: 15,
-        seed,
-    };
+    let settings = TrainSettings::new(epochs, 15, seed);
     let outcome = train(genome, &data.train, Some(&data.valid), &settings).expect("trains");
     outcome.scores.expect("scores").accuracy
 }
@@ -204,11 +200,7 @@ fn measure_glyph_accuracy() -> Outcome {
         write_glyph_folder(&root, &spec).expect("writes");
         let table = read_image_folder(&root, &ImageFolderOptions::default()).expect("loads");
         let prepared = prepare_images(&table, &SplitFractions::default(), 0).expect("prepare");
-        let settings = TrainSettings {
-            max_epochs: epochs,
-            patience: 0,
-            seed: 1,
-        };
+        let settings = TrainSettings::new(epochs, 0, 1);
         let outcome = train_image_cells(
             &reference_image_cell_genome(),
             &prepared.train,
@@ -219,11 +211,7 @@ fn measure_glyph_accuracy() -> Outcome {
         )
         .expect("trains");
         let mlp = layer_genome(r#"{"width":64,"activation":"relu"}"#, 0.003);
-        let mlp_settings = TrainSettings {
-            max_epochs: 100,
-            patience: 15,
-            seed: 1,
-        };
+        let mlp_settings = TrainSettings::new(100, 15, 1);
         let mlp_outcome =
             train(&mlp, &prepared.train, Some(&prepared.valid), &mlp_settings).expect("trains");
         println!(

@@ -37,11 +37,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             optimizer: Optimizer::Adam,
         },
     });
-    let settings = TrainSettings {
-        max_epochs: 40,
-        patience: 6,
-        seed: 1,
-    };
+    let settings = TrainSettings::new(40, 6, 1);
     let trained = train_genome(
         &genome,
         &prepared.train,

@@ -4,6 +4,7 @@
 //! `cargo run --release --example search_csv`
 
 use gemmule::bundle::ModelBundle;
+use gemmule::ledger::LedgerLocation;
 use gemmule::search::{Journal, JournalContents, QuietObserver};
 use gemmule::workflow::{finalize, DataSource, FinalizeOptions, SearchJob, StrategyChoice};
 use std::path::Path;
@@ -31,8 +32,14 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let journal: JournalContents = Journal::read(&Journal::path_in(&run_dir))?;
     assert_eq!(journal.evaluations.len(), 8);
 
-    // One look at the sealed test split.
-    let report = finalize(&run_dir, &FinalizeOptions::default())?;
+    // One look at the sealed test split. Every opening is recorded in the
+    // test ledger (docs/test-ledger.md), normally one per user; this example
+    // keeps its own in the run folder, so running it again is not refused.
+    let options = FinalizeOptions {
+        ledger: Some(LedgerLocation::at(run_dir.join("ledger"))),
+        ..FinalizeOptions::default()
+    };
+    let report = finalize(&run_dir, &options)?;
     let test_accuracy = report.test_scores["accuracy"];
     println!(
         "test accuracy {test_accuracy:.3} on {} rows",

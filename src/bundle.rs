@@ -78,6 +78,12 @@ pub struct Predictions {
     /// Where each predicted image came from (its file, or its line in a
     /// pixel CSV); empty for table rows.
     pub sources: Vec<String>,
+    /// Names of the identifier columns the model was trained with (`--id`);
+    /// empty for images and for models without them.
+    pub id_names: Vec<String>,
+    /// Each row's identifier values, in `id_names` order (empty when
+    /// `id_names` is).
+    pub ids: Vec<Vec<String>>,
 }
 
 impl ModelBundle {
@@ -187,13 +193,22 @@ impl ModelBundle {
         let rows = encoded.x.len().checked_div(encoded.n_features).unwrap_or(0);
         let probabilities = self.model.predict_proba(&encoded.x, rows)?;
         let classes = self.model.predict_classes(&encoded.x, rows)?;
+        let (ids, id_warnings) = if pre.id_columns().is_empty() {
+            (Vec::new(), Vec::new())
+        } else {
+            pre.id_values(&table)
+        };
+        let mut warnings = encoded.warnings;
+        warnings.extend(id_warnings);
         Ok(Predictions {
             class_names: pre.class_names().to_vec(),
             classes,
             probabilities,
             labels: encoded.labels,
-            warnings: encoded.warnings,
+            warnings,
             sources: Vec::new(),
+            id_names: pre.id_columns().to_vec(),
+            ids,
         })
     }
 }
@@ -236,6 +251,8 @@ impl ModelBundle {
             labels,
             warnings: table.warnings.clone(),
             sources: table.sources.clone(),
+            id_names: Vec::new(),
+            ids: Vec::new(),
         })
     }
 }

@@ -1,13 +1,20 @@
 //! The real evaluator: trains a genome of any encoding on the training
-//! split and scores it on the validation split.
+//! split and scores it on the validation split, or, with k-fold scoring,
+//! trains it once per fold and scores the mean over the held-out folds.
 
 use crate::data::image::ImageShape;
-use crate::data::Dataset;
-use crate::genome::{AnyGenome, LayerGenome};
+use crate::data::{Dataset, Fold};
+use crate::genome::{AnyGenome, LayerGenome, Optimizer, TrainGenes};
 use crate::model::{genome_cost, train_genome_with_cut, training_memory_bytes, InputLayout};
 use crate::net::Cost;
-use crate::search::{EvalStatus, Evaluation, Evaluator};
-use crate::train::{CurveCut, CutVerdict, Objective, Scores, TrainSettings, TrainStatus};
+use crate::search::seeds::derive;
+use crate::search::{
+    storable, BaselineRecord, EvalStatus, Evaluation, Evaluator, FoldResult, FoldScores,
+    LINEAR_BASELINE, MAJORITY_BASELINE,
+};
+use crate::train::{
+    score, CurveCut, CutVerdict, Objective, Scores, TrainSettings, TrainStatus, Watch,
+};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -50,6 +57,54 @@ pub struct TrainerSettings {
     /// header when off.
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub curve_cut: bool,
+    /// K of stratified K-fold scoring on train+validation (`None`: one
+    /// validation split). Left out of the header when `None`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub folds: Option<u32>,
+    /// What early stopping and the best-weight restore watch on the
+    /// held-out rows. Left out of the header for the validation loss.
+    #[serde(default, skip_serializing_if = "Watched::is_loss")]
+    pub watch: Watched,
+    /// Class weights of the training loss (`None`: every row counts alike).
+    /// Left out of the header when `None`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub class_weight: Option<ClassWeighting>,
+}
+
+/// What a candidate's training watches on its held-out rows to stop early
+/// and to choose the epoch whose weights it keeps.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Watched {
+    /// The mean cross-entropy (lowest is best).
+    #[default]
+    Loss,
+    /// The search objective (highest is best; ties go to the lower loss).
+    Objective,
+}
+
+impl Watched {
+    /// True for [`Watched::Loss`], the default (left out of headers).
+    pub fn is_loss(&self) -> bool {
+        *self == Watched::Loss
+    }
+
+    /// The trainer's form of this choice for `objective`.
+    pub fn watch(self, objective: Objective) -> Watch {
+        match self {
+            Watched::Loss => Watch::Loss,
+            Watched::Objective => Watch::Objective(objective),
+        }
+    }
+}
+
+/// How the rows of each class are weighted in the training loss.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ClassWeighting {
+    /// Each class weighs n_rows / (n_classes · its rows), counted on the
+    /// rows a network is trained on (scikit-learn's "balanced" rule).
+    Balanced,
 }
 
 impl Default for TrainerSettings {
@@ -65,6 +120,9 @@ impl Default for TrainerSettings {
             max_memory_mb: None,
             augment: false,
             curve_cut: false,
+            folds: None,
+            watch: Watched::Loss,
+            class_weight: None,
         }
     }
 }
@@ -74,6 +132,12 @@ impl TrainerSettings {
     pub fn check(&self) -> crate::Result<()> {
         if self.max_epochs == 0 {
             return Err(crate::Error::input("epochs must be at least 1"));
+        }
+        if let Some(k) = self.folds.filter(|&k| k < 2) {
+            return Err(crate::Error::input(format!(
+                "--folds is {k}; k-fold scoring needs at least 2 folds (or --folds off for one \
+                 validation split)"
+            )));
         }
         if let Some(lambda) = self.size_penalty {
             if !(lambda.is_finite() && lambda >= 0.0) {
@@ -102,13 +166,33 @@ pub fn scores_map(scores: &Scores) -> BTreeMap<String, f64> {
     ])
 }
 
-/// Trains candidates on `train` and scores them on `valid`.
+/// Seed stream of the folds of one candidate (ASCII "folding").
+const FOLD_STREAM: u64 = 0x0066_6f6c_6469_6e67;
+
+/// The training seed of fold `fold` of a candidate evaluated with `seed`.
+pub fn fold_seed(seed: u64, fold: usize) -> u64 {
+    derive(seed, FOLD_STREAM, fold as u64)
+}
+
+/// Trains candidates on `train` and scores them on `valid`; or, built with
+/// [`TrainingEvaluator::with_folds`], once per fold, scored by the mean.
 #[derive(Debug, Clone)]
 pub struct TrainingEvaluator {
-    train: Dataset,
-    valid: Dataset,
+    parts: Vec<Fold>,
+    folded: bool,
     input: InputLayout,
     settings: TrainerSettings,
+}
+
+/// What training on one part gave.
+struct PartResult {
+    status: EvalStatus,
+    scores: Option<Scores>,
+    epochs: u32,
+    best_epoch: u32,
+    cut: Option<CutVerdict>,
+    /// Why the part failed, for a failed part.
+    failure: Option<String>,
 }
 
 impl TrainingEvaluator {
@@ -119,8 +203,11 @@ impl TrainingEvaluator {
             image: None,
         };
         TrainingEvaluator {
-            train,
-            valid,
+            parts: vec![Fold {
+                train,
+                held_out: valid,
+            }],
+            folded: false,
             input,
             settings,
         }
@@ -137,6 +224,48 @@ impl TrainingEvaluator {
         let mut evaluator = TrainingEvaluator::new(train, valid, settings);
         evaluator.input.image = Some(shape);
         evaluator
+    }
+
+    /// A k-fold evaluator: each candidate trains once per fold (with seed
+    /// [`fold_seed`]`(seed, fold)`, its own early stopping) and is scored by
+    /// the mean objective over the held-out folds; the evaluation keeps every
+    /// fold ([`FoldScores`]). At least two folds; all with the same inputs.
+    pub fn with_folds(
+        folds: Vec<Fold>,
+        image: Option<ImageShape>,
+        settings: TrainerSettings,
+    ) -> crate::Result<Self> {
+        let Some(first) = folds.first() else {
+            return Err(crate::Error::internal("k-fold scoring without folds"));
+        };
+        if folds.len() < 2 {
+            return Err(crate::Error::internal("k-fold scoring needs two folds"));
+        }
+        let input = InputLayout {
+            n_inputs: first.train.n_features,
+            image,
+        };
+        Ok(TrainingEvaluator {
+            parts: folds,
+            folded: true,
+            input,
+            settings,
+        })
+    }
+
+    /// The training/held-out pairs candidates are scored on (one, or one per fold).
+    pub fn parts(&self) -> &[Fold] {
+        &self.parts
+    }
+
+    /// What the networks read.
+    pub fn input(&self) -> &InputLayout {
+        &self.input
+    }
+
+    /// Classes of the data.
+    fn n_classes(&self) -> usize {
+        self.parts[0].train.n_classes
     }
 
     /// The settings candidates are trained with.
@@ -215,8 +344,9 @@ impl Evaluator<AnyGenome> for TrainingEvaluator {
             epochs: 0,
             best_epoch: 0,
             message: None,
+            folds: None,
         };
-        let cost = match genome_cost(genome, &self.input, self.train.n_classes) {
+        let cost = match genome_cost(genome, &self.input, self.n_classes()) {
             Ok(cost) => cost,
             Err(e) => {
                 evaluation.status = EvalStatus::Failed;
@@ -226,58 +356,322 @@ impl Evaluator<AnyGenome> for TrainingEvaluator {
         };
         evaluation.params = Some(cost.params);
         evaluation.madds = Some(cost.madds);
-        let memory = training_memory_bytes(genome, &self.input, self.train.n_classes);
+        let memory = training_memory_bytes(genome, &self.input, self.n_classes());
         if let Some(message) = self.over_cap(&cost, memory) {
             evaluation.status = EvalStatus::OverBudget;
             evaluation.message = Some(message);
             return evaluation;
         }
-        let settings = TrainSettings {
-            max_epochs: self.settings.max_epochs,
-            patience: self.settings.patience,
-            seed,
-        };
         let cut = bar.filter(|_| self.settings.curve_cut).map(|bar| CurveCut {
             bar: bar + self.penalty(cost.params),
             objective: self.settings.objective,
         });
+        if !self.folded {
+            let part = self.train_part(genome, &self.parts[0], seed, cut);
+            return self.single_split(evaluation, part, bar, cost.params);
+        }
+        let mut results = Vec::with_capacity(self.parts.len());
+        for (fold, part) in self.parts.iter().enumerate() {
+            let result = self.train_part(genome, part, fold_seed(seed, fold), cut);
+            let stop = !matches!(
+                result.status,
+                EvalStatus::Completed | EvalStatus::EarlyStopped
+            );
+            results.push(result);
+            if stop {
+                // A diverged, failed or cut fold ends the candidate: the
+                // remaining folds could not change that verdict.
+                break;
+            }
+        }
+        self.combine_folds(evaluation, results, bar, cost.params)
+    }
+}
+
+impl TrainingEvaluator {
+    /// Trains `genome` on one part and scores it on the part's held-out rows.
+    fn train_part(
+        &self,
+        genome: &AnyGenome,
+        part: &Fold,
+        seed: u64,
+        cut: Option<CurveCut>,
+    ) -> PartResult {
+        let mut settings =
+            TrainSettings::new(self.settings.max_epochs, self.settings.patience, seed);
+        settings.watch = self.settings.watch.watch(self.settings.objective);
+        if let Some(ClassWeighting::Balanced) = self.settings.class_weight {
+            match balanced_weights(&part.train) {
+                Ok(weights) => settings.class_weights = Some(weights),
+                Err(e) => return PartResult::failed(e),
+            }
+        }
         let trained = train_genome_with_cut(
             genome,
-            &self.train,
-            Some(&self.valid),
+            &part.train,
+            Some(&part.held_out),
             &self.input,
             &settings,
             self.settings.augment,
             cut,
         );
         match trained {
-            Ok(outcome) => {
-                evaluation.epochs = outcome.epochs_run;
-                evaluation.best_epoch = outcome.best_epoch;
-                evaluation.status = match outcome.status {
+            Ok(outcome) => PartResult {
+                status: match outcome.status {
                     TrainStatus::Completed => EvalStatus::Completed,
                     TrainStatus::EarlyStopped => EvalStatus::EarlyStopped,
                     TrainStatus::Diverged => EvalStatus::Diverged,
                     TrainStatus::CurveCut => EvalStatus::CurveCut,
-                };
-                if let (Some(verdict), Some(bar)) = (outcome.cut, bar) {
-                    evaluation.message = Some(self.cut_message(&verdict, bar, cost.params));
-                }
-                if let Some(scores) = outcome
+                },
+                scores: outcome
                     .scores
-                    .filter(|_| outcome.status != TrainStatus::Diverged)
-                {
-                    let raw = self.settings.objective.value(&scores);
-                    evaluation.objective = Some(raw - self.penalty(cost.params));
-                    evaluation.scores = scores_map(&scores);
-                }
-            }
-            Err(e) => {
-                evaluation.status = EvalStatus::Failed;
-                evaluation.message = Some(e.to_string());
-            }
+                    .filter(|_| outcome.status != TrainStatus::Diverged),
+                epochs: outcome.epochs_run,
+                best_epoch: outcome.best_epoch,
+                cut: outcome.cut,
+                failure: None,
+            },
+            Err(e) => PartResult::failed(e),
+        }
+    }
+
+    /// The evaluation of a single validation split (the journal form of
+    /// every run made before k-fold scoring existed).
+    fn single_split(
+        &self,
+        mut evaluation: Evaluation,
+        part: PartResult,
+        bar: Option<f64>,
+        params: u64,
+    ) -> Evaluation {
+        evaluation.status = part.status;
+        evaluation.epochs = part.epochs;
+        evaluation.best_epoch = part.best_epoch;
+        if let Some(message) = part.message() {
+            evaluation.message = Some(message);
+        }
+        if let (Some(verdict), Some(bar)) = (&part.cut, bar) {
+            evaluation.message = Some(self.cut_message(verdict, bar, params));
+        }
+        if let Some(scores) = &part.scores {
+            let raw = self.settings.objective.value(scores);
+            evaluation.objective = Some(raw - self.penalty(params));
+            evaluation.scores = scores_map(scores);
         }
         evaluation
+    }
+
+    /// The evaluation of k-fold scoring: means over the folds, every fold kept.
+    fn combine_folds(
+        &self,
+        mut evaluation: Evaluation,
+        results: Vec<PartResult>,
+        bar: Option<f64>,
+        params: u64,
+    ) -> Evaluation {
+        let penalty = self.penalty(params);
+        let last = results.last();
+        evaluation.status = match last.map(|r| r.status) {
+            Some(EvalStatus::Completed) | None => {
+                if results.iter().any(|r| r.status == EvalStatus::EarlyStopped) {
+                    EvalStatus::EarlyStopped
+                } else {
+                    EvalStatus::Completed
+                }
+            }
+            Some(other) => other,
+        };
+        if let Some(message) = last.and_then(PartResult::message) {
+            evaluation.message = Some(format!("fold {}: {message}", results.len()));
+        }
+        if let (Some(verdict), Some(bar)) = (last.and_then(|r| r.cut.as_ref()), bar) {
+            evaluation.message = Some(format!(
+                "fold {}: {}",
+                results.len(),
+                self.cut_message(verdict, bar, params)
+            ));
+        }
+        let each: Vec<FoldResult> = results
+            .iter()
+            .map(|r| FoldResult {
+                status: r.status,
+                objective: r
+                    .scores
+                    .as_ref()
+                    .map(|s| self.settings.objective.value(s) - penalty),
+                scores: r.scores.as_ref().map(scores_map).unwrap_or_default(),
+                epochs: r.epochs,
+                best_epoch: r.best_epoch,
+            })
+            .collect();
+        evaluation.epochs = each.iter().map(|f| f.epochs).sum();
+        let best_epochs: Vec<f64> = each.iter().map(|f| f64::from(f.best_epoch)).collect();
+        evaluation.best_epoch =
+            (best_epochs.iter().sum::<f64>() / best_epochs.len().max(1) as f64).round() as u32;
+        let objectives: Option<Vec<f64>> = each.iter().map(|f| f.objective).collect();
+        let scored = matches!(
+            evaluation.status,
+            EvalStatus::Completed | EvalStatus::EarlyStopped | EvalStatus::CurveCut
+        );
+        let mut standard_error = None;
+        if let (Some(objectives), true) = (objectives, scored) {
+            let (mean, se) = mean_and_standard_error(&objectives);
+            evaluation.objective = Some(mean);
+            standard_error = se;
+            let mut means: BTreeMap<String, f64> = BTreeMap::new();
+            for fold in &each {
+                for (name, value) in &fold.scores {
+                    *means.entry(name.clone()).or_default() += value / each.len() as f64;
+                }
+            }
+            evaluation.scores = means;
+        }
+        evaluation.folds = Some(FoldScores {
+            k: self.parts.len() as u32,
+            standard_error,
+            each,
+        });
+        evaluation
+    }
+}
+
+impl PartResult {
+    fn failed(error: crate::Error) -> PartResult {
+        PartResult {
+            status: EvalStatus::Failed,
+            scores: None,
+            epochs: 0,
+            best_epoch: 0,
+            cut: None,
+            failure: Some(error.to_string()),
+        }
+    }
+
+    /// The failure text of a failed part.
+    fn message(&self) -> Option<String> {
+        self.failure.clone()
+    }
+}
+
+/// Balanced class weights of the rows `train` holds (see [`ClassWeighting::Balanced`]).
+fn balanced_weights(train: &Dataset) -> crate::Result<Vec<f32>> {
+    let mut counts = vec![0usize; train.n_classes];
+    for &class in &train.y {
+        counts[class as usize] += 1;
+    }
+    let weights = crate::metrics::balanced_class_weights(&counts)?;
+    Ok(weights.into_iter().map(|w| w as f32).collect())
+}
+
+/// Mean and standard error (sample standard deviation / √n; `None` below
+/// two values) of `values`.
+fn mean_and_standard_error(values: &[f64]) -> (f64, Option<f64>) {
+    match crate::metrics::mean_and_standard_error(values) {
+        Ok(summary) => (summary.mean, Some(summary.standard_error)),
+        Err(_) => (
+            values.iter().sum::<f64>() / values.len().max(1) as f64,
+            None,
+        ),
+    }
+}
+
+impl TrainingEvaluator {
+    /// The two baselines, scored on the same split or folds as every
+    /// candidate: the majority class (probabilities = the training class
+    /// shares) and the linear model ([`linear_baseline_genome`], trained
+    /// like a candidate with `seed`, but for at least
+    /// [`LINEAR_BASELINE_MIN_EPOCHS`] epochs with a patience of at least
+    /// [`LINEAR_BASELINE_MIN_PATIENCE`] (when early stopping is on): a convex
+    /// model that is stopped before it converges would make a weak
+    /// baseline and flatter the search). Size caps and the size penalty do
+    /// not apply to them: their objective is the raw score.
+    pub fn baselines(&self, seed: u64) -> Vec<BaselineRecord> {
+        let mut plain = self.clone();
+        plain.settings.max_epochs = plain.settings.max_epochs.max(LINEAR_BASELINE_MIN_EPOCHS);
+        if plain.settings.patience > 0 {
+            plain.settings.patience = plain.settings.patience.max(LINEAR_BASELINE_MIN_PATIENCE);
+        }
+        plain.settings.size_penalty = None;
+        plain.settings.max_params = None;
+        plain.settings.max_madds = None;
+        plain.settings.max_memory_mb = None;
+        plain.settings.curve_cut = false;
+        let linear = AnyGenome::Layers(linear_baseline_genome());
+        let majority = plain.majority_class();
+        vec![
+            BaselineRecord {
+                name: MAJORITY_BASELINE.to_string(),
+                genome: None,
+                evaluation: storable(majority),
+            },
+            BaselineRecord {
+                name: LINEAR_BASELINE.to_string(),
+                genome: serde_json::to_value(&linear).ok(),
+                evaluation: storable(Evaluator::<AnyGenome>::evaluate(&plain, &linear, seed)),
+            },
+        ]
+    }
+
+    /// The majority-class baseline's evaluation (nothing is trained).
+    fn majority_class(&self) -> Evaluation {
+        let results = self
+            .parts
+            .iter()
+            .map(|part| {
+                let n_classes = part.train.n_classes;
+                let mut shares = vec![0.0f64; n_classes];
+                for &class in &part.train.y {
+                    shares[class as usize] += 1.0 / part.train.y.len().max(1) as f64;
+                }
+                let probabilities: Vec<f32> = (0..part.held_out.len())
+                    .flat_map(|_| shares.iter().map(|&p| p as f32))
+                    .collect();
+                PartResult {
+                    status: EvalStatus::Completed,
+                    scores: Some(score(&probabilities, &part.held_out.y, n_classes)),
+                    epochs: 0,
+                    best_epoch: 0,
+                    cut: None,
+                    failure: None,
+                }
+            })
+            .collect::<Vec<_>>();
+        let evaluation = Evaluation {
+            status: EvalStatus::Completed,
+            objective: None,
+            scores: BTreeMap::new(),
+            params: Some(0),
+            madds: Some(0),
+            epochs: 0,
+            best_epoch: 0,
+            message: None,
+            folds: None,
+        };
+        if self.folded {
+            self.combine_folds(evaluation, results, None, 0)
+        } else {
+            let mut results = results;
+            self.single_split(evaluation, results.remove(0), None, 0)
+        }
+    }
+}
+
+/// Fewest epochs the linear baseline trains (see [`TrainingEvaluator::baselines`]).
+pub const LINEAR_BASELINE_MIN_EPOCHS: u32 = 300;
+/// Smallest patience of the linear baseline when early stopping is on.
+pub const LINEAR_BASELINE_MIN_PATIENCE: u32 = 20;
+
+/// The linear baseline's genome: no hidden layer (softmax regression on the
+/// encoded features), Adam with learning rate 0.01 and mini-batches of 32.
+pub fn linear_baseline_genome() -> LayerGenome {
+    LayerGenome {
+        layers: Vec::new(),
+        training: TrainGenes {
+            learning_rate: 0.01,
+            batch_size: 32,
+            weight_decay: 0.0,
+            optimizer: Optimizer::Adam,
+        },
     }
 }
 

@@ -15,6 +15,8 @@ pub mod error;
 pub mod evaluate;
 pub mod fsio;
 pub mod genome;
+pub mod ledger;
+pub mod metrics;
 pub mod model;
 pub mod net;
 pub mod render;

@@ -18,6 +18,8 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
+mod private_dirs;
+
 /// Distinct training seeds (so consecutive saves differ); one reference each.
 const SEEDS: [u64; 3] = [1, 2, 3];
 /// SIGKILLs during saves.
@@ -29,6 +31,7 @@ const GENOME: &str = r#"{"layers":[{"width":1024,"activation":"relu"},{"width":1
 fn gemmule() -> Command {
     let mut command = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     command.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut command);
     command
 }
 

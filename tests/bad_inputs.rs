@@ -27,6 +27,8 @@ use gemmule::data::{prepare, read_table, CsvOptions, SplitFractions};
 use gemmule::genome::{CellGenome, ConvOp, ImageCellSpace, SearchSpace};
 use gemmule::Error;
 
+mod private_dirs;
+
 /// Longest acceptable error message (one line a person reads).
 const MAX_MESSAGE_CHARS: usize = 600;
 
@@ -75,7 +77,7 @@ fn s(path: &Path) -> String {
 }
 
 fn gemmule(args: &[String]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_gemmule"))
+    private_dirs::isolate(&mut Command::new(env!("CARGO_BIN_EXE_gemmule")))
         .args(args)
         .env("RAYON_NUM_THREADS", "1")
         .output()
@@ -1070,6 +1072,131 @@ fn search_options() {
             &["--budget", "4", "--strategy", "random", "--population", "3"],
             &["--population", "evolution"],
         ),
+        parse_error("O14", &["--folds", "1"], &["--folds", "not a fold count"]),
+        case(
+            "O15",
+            &["--folds", "9"],
+            &["--folds 9", "smallest class", "--folds"],
+        ),
+    ];
+    run_table(cases);
+}
+
+// ---------------------------------------------------------------- data columns and test sets
+
+/// `good_rows()` with a first column `part` holding `parts[i % parts.len()]`
+/// for data row i, and `replace` (row index, text) put in place of one of them.
+fn parted_rows(parts: &[&str], replace: Option<(usize, &str)>) -> String {
+    let mut lines = good_rows().lines().map(str::to_string).collect::<Vec<_>>();
+    lines[0] = format!("part,{}", lines[0]);
+    for (i, line) in lines.iter_mut().skip(1).enumerate() {
+        let part = match replace {
+            Some((row, text)) if row == i => text,
+            _ => parts[i % parts.len()],
+        };
+        *line = format!("{part},{line}");
+    }
+    lines.join("\n") + "\n"
+}
+
+/// D01–D12: `--id`, `--ignore`, `--split-column` and `--test-data` that cannot work.
+#[test]
+fn data_columns_and_test_sets() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let d = dir.path();
+    let data = write(d, "good.csv", good_rows());
+    let run = d.join("run");
+    let case = |id: &'static str, data: &Path, extra: &[&str], expected: &[&str]| {
+        refused(id, search_args(data, &run, extra), expected).not_created(&run)
+    };
+    let cycle = ["train", "train", "validation", "test"];
+    let parted = write(d, "parted.csv", parted_rows(&cycle, None));
+    let other_value = write(d, "other.csv", parted_rows(&cycle, Some((3, "Train"))));
+    let no_test = write(d, "notest.csv", parted_rows(&["train", "validation"], None));
+    let other_columns = write(
+        d,
+        "z.csv",
+        good_rows().replacen("x,y,label", "x,z,label", 1),
+    );
+    let unknown_class = write(d, "d.csv", "x,y,label\n1,2,d\n");
+    let test = write(d, "test.csv", good_rows());
+    let cases = vec![
+        case(
+            "D01",
+            &data,
+            &["--id", "label"],
+            &["--id 'label' names the label column"],
+        ),
+        case(
+            "D02",
+            &data,
+            &["--id", "nope"],
+            &["no column 'nope' (--id)", "the columns are: x, y, label"],
+        ),
+        case(
+            "D03",
+            &data,
+            &["--ignore", "x,nope"],
+            &["no column 'nope' (--ignore)", "x, y, label"],
+        ),
+        case(
+            "D04",
+            &data,
+            &["--ignore", "x,y"],
+            &["no feature column is left", "'label' (x, y)"],
+        ),
+        case(
+            "D05",
+            &data,
+            &["--id", "x", "--ignore", "x"],
+            &["column 'x' is given to both --id and --ignore"],
+        ),
+        case(
+            "D06",
+            &other_value,
+            &["--split-column", "part"],
+            &["split column 'part'", "line 5, column 'part': 'Train'"],
+        ),
+        case(
+            "D07",
+            &no_test,
+            &["--split-column", "part"],
+            &["split column 'part'", "assigns no rows to test"],
+        ),
+        case(
+            "D08",
+            &data,
+            &["--split-column", "label"],
+            &["--split-column 'label' names the label column"],
+        ),
+        case(
+            "D09",
+            &data,
+            &["--test-data", &s(&other_columns)],
+            &["z.csv", "lacks y", "extra column(s) z"],
+        ),
+        case(
+            "D10",
+            &parted,
+            &["--split-column", "part", "--test-data", &s(&test)],
+            &["--test-data and --split-column"],
+        ),
+        case(
+            "D11",
+            &data,
+            &["--test-data", &s(&unknown_class)],
+            &[
+                "d.csv",
+                "class the data does not have",
+                "line 2, column 'label': 'd'",
+            ],
+        ),
+        case(
+            "D12",
+            &parted,
+            &["--split-column", "part", "--split", "0.5,0.25,0.25"],
+            &["--split-column part", "--split"],
+        ),
     ];
     run_table(cases);
 }
@@ -1287,6 +1414,16 @@ fn run_directories() {
         "model.json",
         with_format(&description, "\"format\": ", 99),
     );
+    // A second run on the same data and split, and the first one finalized:
+    // the test ledger (this test's own, see private_dirs) holds its opening.
+    let second = variant("second");
+    let opened = variant("opened");
+    let first_opening = gemmule(&["finalize".to_string(), s(&opened)]);
+    assert!(
+        first_opening.status.success(),
+        "{}",
+        String::from_utf8_lossy(&first_opening.stderr)
+    );
     let predict = |folder: &Path| {
         vec![
             "predict".to_string(),
@@ -1355,6 +1492,12 @@ fn run_directories() {
         )
         .unchanged(&newer_model),
         refused("R12", resume(&d.join("nowhere")), &["nowhere"]).not_created(&d.join("nowhere")),
+        refused(
+            "R13",
+            vec!["finalize".to_string(), s(&second)],
+            &["already opened", "opened", "--reopen"],
+        )
+        .unchanged(&second),
         // Found by the csv_loader fuzz target (a value far outside the training
         // range became an infinite feature).
         refused(
@@ -1394,7 +1537,7 @@ fn every_case_is_documented() {
             let id: String = rest.chars().take(3).collect();
             let mut chars = id.chars();
             let letter = chars.next().unwrap_or(' ');
-            if "CGKIOR".contains(letter) && chars.all(|c| c.is_ascii_digit()) && id.len() == 3 {
+            if "CGKIORD".contains(letter) && chars.all(|c| c.is_ascii_digit()) && id.len() == 3 {
                 found.insert(id);
             }
         }

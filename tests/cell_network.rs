@@ -224,11 +224,7 @@ fn same_seed_gives_the_same_weights_and_logits_after_one_epoch() {
     let (train, valid, shape) = small_digits();
     let rows: Vec<usize> = (0..200).collect();
     let train = train.subset(&rows);
-    let settings = TrainSettings {
-        max_epochs: 1,
-        patience: 0,
-        seed: 11,
-    };
+    let settings = TrainSettings::new(1, 0, 11);
     let genome = all_ops_image_genome();
     let built = |seed| ImageCellNet::build(&genome, shape, 10, seed).expect("builds");
     let x = Tensor::from_slice(&valid.x, (valid.len(), valid.n_features), &Device::Cpu)
@@ -270,11 +266,7 @@ fn saved_networks_load_with_identical_logits() {
     single_thread();
     let (train, valid, shape) = small_digits();
     let rows: Vec<usize> = (0..128).collect();
-    let settings = TrainSettings {
-        max_epochs: 1,
-        patience: 0,
-        seed: 3,
-    };
+    let settings = TrainSettings::new(1, 0, 3);
     let genome = reference_image_genome();
     let outcome = train_image_cells(&genome, &train.subset(&rows), None, shape, &settings, false)
         .expect("trains");
@@ -323,11 +315,7 @@ fn saved_networks_load_with_identical_logits() {
 fn digits_reference_cells_reach_ninety_five_percent() {
     single_thread();
     let (train, valid, shape) = small_digits();
-    let settings = TrainSettings {
-        max_epochs: 6,
-        patience: 0,
-        seed: 1,
-    };
+    let settings = TrainSettings::new(6, 0, 1);
     let outcome = train_image_cells(
         &reference_image_genome(),
         &train,
@@ -362,11 +350,7 @@ fn wine_table_cells_reach_ninety_percent() {
         0,
     )
     .expect("wine prepares");
-    let settings = TrainSettings {
-        max_epochs: 40,
-        patience: 10,
-        seed: 1,
-    };
+    let settings = TrainSettings::new(40, 10, 1);
     let outcome = train_table_cells(
         &reference_table_genome(),
         &data.train,
@@ -403,11 +387,7 @@ fn a_last_batch_of_one_row_on_one_pixel_maps_is_skipped_not_fatal() {
     let mut genome = reference_image_genome();
     genome.skeleton = skeleton(4, 1, 4);
     genome.training = training(0.01, 32);
-    let settings = TrainSettings {
-        max_epochs: 2,
-        patience: 0,
-        seed: 5,
-    };
+    let settings = TrainSettings::new(2, 0, 5);
     let outcome = train_image_cells(
         &genome,
         &train.subset(&rows),

@@ -16,8 +16,10 @@ use gemmule::genome::reference_image_cell_genome;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
+mod private_dirs;
+
 fn gemmule(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_gemmule"))
+    private_dirs::isolate(&mut Command::new(env!("CARGO_BIN_EXE_gemmule")))
         .env("RAYON_NUM_THREADS", "1")
         .args(args)
         .output()

@@ -7,9 +7,12 @@
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
+mod private_dirs;
+
 fn gemmule() -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     c.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut c);
     c
 }
 
@@ -407,7 +410,7 @@ fn iris_search_then_finalize_once() {
     assert!(text(&o).contains("already opened 1 time"), "{}", text(&o));
     let o = run(&["show", path(&run_dir)]);
     assert!(
-        text(&o).contains("test split opened 1 time"),
+        text(&o).contains("test split: opened 1 time by this run"),
         "{}",
         text(&o)
     );

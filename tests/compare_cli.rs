@@ -5,9 +5,12 @@
 use std::path::Path;
 use std::process::{Command, Output};
 
+mod private_dirs;
+
 fn gemmule() -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     c.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut c);
     c
 }
 
@@ -78,8 +81,8 @@ fn a_tiny_comparison_writes_runs_plan_and_table() {
     assert!(out.join("comparison.json").is_file());
     for (run, journal) in RUNS.iter().zip(journals(&out)) {
         let lines = journal.split(|&b| b == b'\n').filter(|l| !l.is_empty());
-        // A header plus one record per evaluation.
-        assert_eq!(lines.count(), 5, "{run}");
+        // A header, the two baselines and one record per evaluation.
+        assert_eq!(lines.count(), 7, "{run}");
     }
     let plan: serde_json::Value =
         serde_json::from_slice(&std::fs::read(out.join("comparison.json")).expect("plan"))

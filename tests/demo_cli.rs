@@ -8,8 +8,10 @@
 use std::path::Path;
 use std::process::Command;
 
+mod private_dirs;
+
 fn demo(dir: &Path) -> (i32, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_gemmule"))
+    let o = private_dirs::isolate(&mut Command::new(env!("CARGO_BIN_EXE_gemmule")))
         .env("RAYON_NUM_THREADS", "1")
         .args(["demo", "--quick", "--jobs", "2", "--quiet", "--out"])
         .arg(dir)

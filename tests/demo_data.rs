@@ -44,11 +44,7 @@ fn prepared_table(dir: &Path, spec: &RoastTableSpec, split_seed: u64) -> Prepare
 }
 
 fn accuracy(genome: &LayerGenome, data: &Prepared, epochs: u32, seed: u64) -> f64 {
-    let settings = TrainSettings {
-        max_epochs: epochs,
-        patience: 15,
-        seed,
-    };
+    let settings = TrainSettings::new(epochs, 15, seed);
     let outcome = train(genome, &data.train, Some(&data.valid), &settings).expect("trains");
     outcome.scores.expect("scores").accuracy
 }
@@ -203,6 +199,7 @@ fn ensure_reuses_matching_files_and_repairs_the_rest() {
     let leftover = dir
         .path()
         .join(GLYPH_FOLDER)
+        .join("dot")
         .join(format!(".gemmule-{dead}-0-0001.png.partial"));
     std::fs::write(&leftover, b"half").expect("write");
     let repaired = ensure_demo_data_with(dir.path(), &table, &small).expect("repairs");

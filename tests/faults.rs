@@ -25,6 +25,8 @@ use std::process::{Command, Output};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 
+mod private_dirs;
+
 const BUDGET: u64 = 16;
 /// A learning rate of 10 with SGD + momentum 0.9 makes most of these
 /// networks' losses overflow on standardised iris within one or two epochs
@@ -103,6 +105,7 @@ fn plan() -> SearchPlan {
         space: space().describe(),
         data: serde_json::json!({ "fingerprint": "iris" }),
         trainer: serde_json::json!({ "max_epochs": 10 }),
+        baselines: Vec::new(),
     }
 }
 
@@ -262,6 +265,7 @@ fn runs_with_faults_resume_to_the_uninterrupted_journal() {
 fn gemmule() -> Command {
     let mut command = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     command.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut command);
     command
 }
 

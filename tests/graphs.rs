@@ -18,6 +18,8 @@ use graphviz_rust::dot_structures::{Graph as DotGraph, Stmt};
 use std::collections::BTreeMap;
 use std::process::Command;
 
+mod private_dirs;
+
 fn training() -> TrainGenes {
     TrainGenes {
         learning_rate: 0.001,
@@ -309,6 +311,7 @@ fn record_with<G>(
         epochs: 3,
         best_epoch: 2,
         message: None,
+        folds: None,
     }
 }
 
@@ -474,7 +477,7 @@ fn show_draws_a_cell_run_and_writes_dot_and_svg() {
     std::fs::create_dir(&run).expect("run dir");
     write_cell_run(&run);
     let (dot, svg) = (dir.path().join("best.dot"), dir.path().join("best.svg"));
-    let out = Command::new(env!("CARGO_BIN_EXE_gemmule"))
+    let out = private_dirs::isolate(&mut Command::new(env!("CARGO_BIN_EXE_gemmule")))
         .arg("show")
         .arg(&run)
         .arg("--ascii")
@@ -505,7 +508,7 @@ fn show_draws_a_cell_run_and_writes_dot_and_svg() {
     assert_eq!(parsed_node_count(&dot), 2 * (2 + 5 * 3 + 1));
     let svg = std::fs::read_to_string(svg).expect("SVG written");
     assert!(svg_texts(&svg).contains(&"normal cell".to_string()));
-    let missing = Command::new(env!("CARGO_BIN_EXE_gemmule"))
+    let missing = private_dirs::isolate(&mut Command::new(env!("CARGO_BIN_EXE_gemmule")))
         .arg("show")
         .arg(&run)
         .args(["--index", "9"])

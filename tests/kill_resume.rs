@@ -14,6 +14,8 @@ use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Output};
 use std::time::{Duration, Instant};
 
+mod private_dirs;
+
 /// Evaluations per run: enough that a run lasts about a second.
 const BUDGET: u64 = 40;
 /// SIGKILLs per run.
@@ -22,6 +24,7 @@ const KILLS: usize = 20;
 fn gemmule() -> Command {
     let mut command = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     command.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut command);
     command
 }
 

@@ -28,11 +28,7 @@ fn validation_accuracy(file: &str, epochs: u32) -> f64 {
         .join("tests/data")
         .join(file);
     let data = prepare(&path, &CsvOptions::default(), &SplitFractions::default(), 0).unwrap();
-    let settings = TrainSettings {
-        max_epochs: epochs,
-        patience: 10,
-        seed: 1,
-    };
+    let settings = TrainSettings::new(epochs, 10, 1);
     let outcome = train(&genome(), &data.train, Some(&data.valid), &settings).unwrap();
     let scores = outcome.scores.expect("validation scores");
     eprintln!(

@@ -13,9 +13,12 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
+mod private_dirs;
+
 fn gemmule() -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_gemmule"));
     c.env("RAYON_NUM_THREADS", "1");
+    private_dirs::isolate(&mut c);
     c
 }
 

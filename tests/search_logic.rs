@@ -26,6 +26,7 @@ fn scored(objective: Option<f64>) -> Evaluation {
         epochs: 1,
         best_epoch: 1,
         message: None,
+        folds: None,
     }
 }
 
@@ -281,6 +282,7 @@ fn record(index: u64, objective: Option<f64>) -> EvaluationRecord<u8> {
         epochs: 1,
         best_epoch: 1,
         message: None,
+        folds: None,
     }
 }
 

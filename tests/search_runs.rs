@@ -43,6 +43,7 @@ fn plan(jobs: usize, evaluations: u64) -> SearchPlan {
         space: serde_json::json!({ "length": 20, "alphabet": 4 }),
         data: serde_json::json!({ "fingerprint": "toy" }),
         trainer: serde_json::json!({}),
+        baselines: Vec::new(),
     }
 }
 

@@ -5,7 +5,10 @@
 use gemmule::data::Dataset;
 use gemmule::genome::{Activation, LayerGene, LayerGenome, Optimizer, TrainGenes};
 use gemmule::net::{layer_cost, Mlp};
-use gemmule::train::{score, train, Objective, Scores, TrainSettings, TrainStatus, TrainedModel};
+use gemmule::train::{
+    fit, score, train, FastMlpLearner, Learner, Objective, Scores, Snapshot, TrainSettings,
+    TrainStatus, TrainedModel, Watch,
+};
 use gemmule::Error;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -76,11 +79,7 @@ fn noise(rows: usize, seed: u64) -> Dataset {
 }
 
 fn settings(max_epochs: u32, patience: u32, seed: u64) -> TrainSettings {
-    TrainSettings {
-        max_epochs,
-        patience,
-        seed,
-    }
+    TrainSettings::new(max_epochs, patience, seed)
 }
 
 #[test]
@@ -420,4 +419,305 @@ fn objectives_are_oriented_so_higher_is_better() {
             Ok(objective)
         );
     }
+}
+
+/// A learner that keeps a copy of every batch of logits `fit` asks for: one validation pass
+/// per epoch, then one for the final scores.
+struct Recorder {
+    inner: FastMlpLearner,
+    seen: Vec<Vec<f32>>,
+}
+
+impl Learner for Recorder {
+    fn n_inputs(&self) -> usize {
+        self.inner.n_inputs()
+    }
+    fn n_classes(&self) -> usize {
+        self.inner.n_classes()
+    }
+    fn train_step(
+        &mut self,
+        x: &[f32],
+        labels: &[u32],
+        rows: usize,
+        rng: &mut dyn rand::RngCore,
+    ) -> gemmule::Result<f32> {
+        self.inner.train_step(x, labels, rows, rng)
+    }
+    fn logits(&mut self, x: &[f32], rows: usize) -> gemmule::Result<Vec<f32>> {
+        let logits = self.inner.logits(x, rows)?;
+        self.seen.push(logits.clone());
+        Ok(logits)
+    }
+    fn snapshot(&self) -> gemmule::Result<Snapshot> {
+        self.inner.snapshot()
+    }
+    fn restore(&mut self, snapshot: &Snapshot) -> gemmule::Result<()> {
+        self.inner.restore(snapshot)
+    }
+    fn all_finite(&self) -> gemmule::Result<bool> {
+        self.inner.all_finite()
+    }
+}
+
+/// Validation (loss, accuracy) of one epoch's logits, computed as the epoch loop does: the
+/// mean cross-entropy by log-sum-exp in f64, the accuracy of the f32 softmax.
+fn loss_and_accuracy(logits: &[f32], labels: &[u32]) -> (f64, f64) {
+    let mut total = 0.0f64;
+    let mut probabilities = logits.to_vec();
+    for (row, &label) in probabilities.chunks_mut(N_CLASSES).zip(labels) {
+        let max = row.iter().copied().fold(f32::NEG_INFINITY, f32::max);
+        let sum: f64 = row.iter().map(|&z| (z as f64 - max as f64).exp()).sum();
+        total += max as f64 + sum.ln() - row[label as usize] as f64;
+        let mut row_total = 0.0f32;
+        for value in row.iter_mut() {
+            *value = (*value - max).exp();
+            row_total += *value;
+        }
+        for value in row.iter_mut() {
+            *value /= row_total;
+        }
+    }
+    let accuracy = score(&probabilities, labels, N_CLASSES).accuracy;
+    (total / labels.len() as f64, accuracy)
+}
+
+/// Runs `fit` for `max_epochs` epochs (patience 0) while recording the validation curve:
+/// (loss, accuracy) after each epoch, exactly as the epoch loop saw them.
+fn validation_curve(
+    genome: &LayerGenome,
+    train_set: &Dataset,
+    valid_set: &Dataset,
+    max_epochs: u32,
+) -> Vec<(f64, f64)> {
+    let mut recorder = Recorder {
+        inner: FastMlpLearner::build(genome, N_FEATURES, N_CLASSES, 5).unwrap(),
+        seen: Vec::new(),
+    };
+    let batch = genome.training.batch_size as usize;
+    let fitted = fit(
+        &mut recorder,
+        train_set,
+        Some(valid_set),
+        &settings(max_epochs, 0, 5),
+        batch,
+    )
+    .unwrap();
+    assert_eq!(fitted.epochs_run, max_epochs);
+    recorder.seen[..max_epochs as usize]
+        .iter()
+        .map(|logits| loss_and_accuracy(logits, &valid_set.y))
+        .collect()
+}
+
+/// The rule of `Watch::Objective` replayed on a recorded curve: best = highest accuracy, ties
+/// by lower loss, then the earlier epoch; stop after `patience` epochs without a better pair.
+/// Returns (epochs run, best epoch).
+fn replay_objective_watch(curve: &[(f64, f64)], patience: u32) -> (u32, u32) {
+    let (mut best, mut best_epoch, mut waited) = (curve[0], 1, 0);
+    for (index, &(loss, accuracy)) in curve.iter().enumerate().skip(1) {
+        if accuracy > best.1 || (accuracy == best.1 && loss < best.0) {
+            (best, best_epoch, waited) = ((loss, accuracy), index as u32 + 1, 0);
+        } else {
+            waited += 1;
+            if patience > 0 && waited >= patience {
+                return (index as u32 + 1, best_epoch);
+            }
+        }
+    }
+    (curve.len() as u32, best_epoch)
+}
+
+fn watching_accuracy(max_epochs: u32, patience: u32) -> TrainSettings {
+    let mut settings = settings(max_epochs, patience, 5);
+    settings.watch = Watch::Objective(Objective::Accuracy);
+    settings
+}
+
+/// One invented noisy-blobs problem (data seed `seed`, validation seed `seed + 100`), the
+/// network trained on it and its 30-epoch validation curve.
+struct NoisyCase {
+    genome: LayerGenome,
+    train_set: Dataset,
+    valid_set: Dataset,
+    curve: Vec<(f64, f64)>,
+}
+
+fn noisy_case(seed: u64) -> NoisyCase {
+    let (train_set, valid_set) = (blobs_noisy(30, 2.5, seed), blobs_noisy(30, 2.5, seed + 100));
+    let genome = genome(
+        vec![gene(32, Activation::Relu, false, 0.0)],
+        0.01,
+        Optimizer::Adam,
+    );
+    let curve = validation_curve(&genome, &train_set, &valid_set, 30);
+    NoisyCase {
+        genome,
+        train_set,
+        valid_set,
+        curve,
+    }
+}
+
+/// Epochs (1-based) of the highest accuracy of a curve.
+fn accuracy_peaks(curve: &[(f64, f64)]) -> Vec<u32> {
+    let max_accuracy = curve.iter().map(|c| c.1).fold(0.0, f64::max);
+    (0..curve.len())
+        .filter(|&e| curve[e].1 == max_accuracy)
+        .map(|e| e as u32 + 1)
+        .collect()
+}
+
+/// The first epoch (1-based) of the lowest loss among `epochs`.
+fn lowest_loss_epoch(curve: &[(f64, f64)], epochs: impl Iterator<Item = u32>) -> u32 {
+    epochs
+        .min_by(|&a, &b| {
+            let (a_loss, b_loss) = (curve[a as usize - 1].0, curve[b as usize - 1].0);
+            a_loss.total_cmp(&b_loss).then(a.cmp(&b))
+        })
+        .unwrap()
+}
+
+#[test]
+fn watching_the_objective_keeps_the_epoch_of_highest_accuracy() {
+    // The first invented data seed whose validation accuracy peaks once, after the epoch of
+    // the lowest validation loss (on the development machine: seed 0, loss lowest at epoch 7,
+    // accuracy highest at epoch 19). The expectations come from the recorded curve.
+    let case = (0..30)
+        .map(noisy_case)
+        .find(|case| {
+            let peaks = accuracy_peaks(&case.curve);
+            peaks.len() == 1 && peaks[0] > lowest_loss_epoch(&case.curve, 1..=30)
+        })
+        .expect("a noisy problem whose accuracy keeps rising after the loss minimum");
+    let NoisyCase {
+        genome,
+        train_set,
+        valid_set,
+        curve,
+    } = &case;
+    let loss_best = lowest_loss_epoch(curve, 1..=30);
+    let peak = accuracy_peaks(curve)[0];
+
+    let by_loss = train(genome, train_set, Some(valid_set), &settings(30, 0, 5)).unwrap();
+    assert_eq!(by_loss.best_epoch, loss_best);
+    let by_accuracy = train(
+        genome,
+        train_set,
+        Some(valid_set),
+        &watching_accuracy(30, 0),
+    )
+    .unwrap();
+    assert_eq!(by_accuracy.status, TrainStatus::Completed);
+    assert_eq!(by_accuracy.best_epoch, peak);
+    assert_ne!(by_accuracy.best_epoch, by_loss.best_epoch);
+    assert_eq!(
+        by_accuracy.scores.unwrap().accuracy,
+        curve[peak as usize - 1].1
+    );
+    assert!(by_accuracy.scores.unwrap().accuracy > by_loss.scores.unwrap().accuracy);
+
+    // Patience counts epochs without a better (accuracy, loss) pair.
+    for patience in [2, 3, 5, 8] {
+        let (epochs_run, best_epoch) = replay_objective_watch(curve, patience);
+        let run = train(
+            genome,
+            train_set,
+            Some(valid_set),
+            &watching_accuracy(30, patience),
+        )
+        .unwrap();
+        assert_eq!(
+            (run.epochs_run, run.best_epoch),
+            (epochs_run, best_epoch),
+            "patience {patience}"
+        );
+        let status = if epochs_run < 30 {
+            TrainStatus::EarlyStopped
+        } else {
+            TrainStatus::Completed
+        };
+        assert_eq!(run.status, status, "patience {patience}");
+    }
+}
+
+#[test]
+fn equal_accuracy_is_broken_by_the_lower_validation_loss() {
+    // The first invented data seed whose highest accuracy is reached at several epochs, a
+    // later one with a lower validation loss than the first (on the development machine:
+    // seed 7, peaks at epochs 7, 8, 14 and 17, epoch 14 lowest in loss).
+    let case = (0..40)
+        .map(noisy_case)
+        .find(|case| {
+            let peaks = accuracy_peaks(&case.curve);
+            lowest_loss_epoch(&case.curve, peaks.iter().copied()) != peaks[0]
+        })
+        .expect("a noisy problem with tied accuracy peaks");
+    let peaks = accuracy_peaks(&case.curve);
+    let want = lowest_loss_epoch(&case.curve, peaks.iter().copied());
+    let run = train(
+        &case.genome,
+        &case.train_set,
+        Some(&case.valid_set),
+        &watching_accuracy(30, 0),
+    )
+    .unwrap();
+    assert_eq!(run.best_epoch, want, "peaks {peaks:?}");
+    assert!(want > peaks[0]);
+}
+
+#[test]
+fn train_settings_json_leaves_out_the_defaults() {
+    let plain = settings(20, 5, 3);
+    let json = serde_json::to_string(&plain).unwrap();
+    assert_eq!(json, r#"{"max_epochs":20,"patience":5,"seed":3}"#);
+    let back: TrainSettings = serde_json::from_str(&json).unwrap();
+    assert_eq!(back, plain);
+    assert_eq!((back.class_weights, back.watch), (None, Watch::Loss));
+
+    let mut full = watching_accuracy(20, 5);
+    full.class_weights = Some(vec![0.5, 2.0, 1.0]);
+    let json = serde_json::to_string(&full).unwrap();
+    assert_eq!(
+        json,
+        r#"{"max_epochs":20,"patience":5,"seed":5,"class_weights":[0.5,2.0,1.0],"watch":{"objective":"accuracy"}}"#
+    );
+    assert_eq!(serde_json::from_str::<TrainSettings>(&json).unwrap(), full);
+    let loss: Watch = serde_json::from_str(r#""loss""#).unwrap();
+    assert_eq!(loss, Watch::default());
+}
+
+#[test]
+fn bad_class_weights_are_input_errors() {
+    let data = blobs(5, 0.5, 1);
+    for (weights, needle) in [
+        (vec![1.0, 2.0], "2 class weights were given for 3 classes"),
+        (vec![1.0, 0.0, 1.0], "the weight of class 1 is 0"),
+        (
+            vec![1.0, 1.0, f32::INFINITY],
+            "the weight of class 2 is inf",
+        ),
+    ] {
+        let mut settings = settings(2, 0, 1);
+        settings.class_weights = Some(weights);
+        let error = train(&small_genome(), &data, Some(&data), &settings).unwrap_err();
+        assert!(matches!(error, Error::Input(_)), "{error:?}");
+        assert!(
+            error.to_string().contains(needle),
+            "{error} lacks {needle:?}"
+        );
+    }
+}
+
+/// Invented test data: [`blobs`] with a seeded 15% of the labels redrawn at random, so that
+/// the validation loss and the accuracy disagree about the best epoch.
+fn blobs_noisy(per_class: usize, spread: f32, seed: u64) -> Dataset {
+    let mut data = blobs(per_class, spread, seed);
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xabc);
+    for label in data.y.iter_mut() {
+        if rng.gen_bool(0.15) {
+            *label = rng.gen_range(0..N_CLASSES as u32);
+        }
+    }
+    data
 }

@@ -9,8 +9,8 @@ use gemmule::data::Dataset;
 use gemmule::genome::{Activation, LayerGene, LayerGenome, Optimizer, TrainGenes};
 use gemmule::net::{parameter_specs, seeded_rng, Mlp};
 use gemmule::train::{
-    compute_gradients, fit, train_with_engine, AutogradLearner, FastMlpLearner, Learner,
-    TrainEngine, TrainSettings, TrainStatus,
+    compute_gradients, compute_weighted_gradients, fit, train_with_engine, AutogradLearner,
+    FastMlpLearner, Learner, TrainEngine, TrainSettings, TrainStatus,
 };
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -122,11 +122,7 @@ fn first_step_gradients_agree_with_autograd_for_every_activation() {
 #[test]
 fn both_engines_train_to_the_same_weights() {
     let (train_set, valid_set) = (random_data(90, 2), random_data(40, 3));
-    let settings = TrainSettings {
-        max_epochs: 3,
-        patience: 0,
-        seed: 4,
-    };
+    let settings = TrainSettings::new(3, 0, 4);
     for optimizer in [Optimizer::Adam, Optimizer::SgdMomentum] {
         let genome = genome(Activation::Tanh, true, 0.2, optimizer);
         let run = |engine| {
@@ -151,16 +147,78 @@ fn both_engines_train_to_the_same_weights() {
 }
 
 #[test]
+fn weighted_gradients_agree_with_autograd_for_every_activation() {
+    // Invented class weights, one per class; the NumPy check of the weighted loss itself is
+    // in tests/trainer_reference.rs.
+    let class_weights = [0.5f32, 2.0, 1.25, 3.0];
+    let data = random_data(11, 1);
+    for (case, activation) in ACTIVATIONS.into_iter().enumerate() {
+        let genome = genome(activation, true, 0.3, Optimizer::Adam);
+        let weights = random_weights(&genome, 200 + case as u64);
+        let mlp = Mlp::from_weights(&genome, N_INPUTS, N_CLASSES, &weights).unwrap();
+        let x = Tensor::from_slice(&data.x, (data.len(), N_INPUTS), &Device::Cpu).unwrap();
+        let y = Tensor::from_slice(&data.y, data.len(), &Device::Cpu).unwrap();
+        let reference =
+            compute_weighted_gradients(&mlp, &x, &y, &class_weights, &mut seeded_rng(5, 9))
+                .unwrap();
+        let mut fast = FastMlpLearner::new(&genome, N_INPUTS, N_CLASSES, &weights).unwrap();
+        fast.set_class_weights(Some(&class_weights)).unwrap();
+        let (loss, gradients) = fast
+            .gradients(&data.x, &data.y, data.len(), &mut seeded_rng(5, 9))
+            .unwrap();
+        let what = format!("{activation:?} weighted");
+        assert_close(&format!("{what} loss"), &[loss], &[reference.loss], 1e-5);
+        for (index, (got, want)) in gradients
+            .iter()
+            .zip(reference.to_vecs().unwrap())
+            .enumerate()
+        {
+            assert_close(&format!("{what} gradient {index}"), got, &want, 1e-5);
+        }
+        let unweighted = compute_gradients(&mlp, &x, &y, &mut seeded_rng(5, 9)).unwrap();
+        assert!(
+            (unweighted.loss - reference.loss).abs() > 1e-4,
+            "{what}: the weights change the loss"
+        );
+    }
+}
+
+#[test]
+fn both_engines_train_to_the_same_weights_with_class_weights() {
+    let (train_set, valid_set) = (random_data(90, 2), random_data(40, 3));
+    let mut settings = TrainSettings::new(3, 0, 4);
+    settings.class_weights = Some(vec![0.5, 2.0, 1.25, 3.0]);
+    let genome = genome(Activation::Tanh, true, 0.2, Optimizer::Adam);
+    let run = |settings: &TrainSettings, engine| {
+        train_with_engine(&genome, &train_set, Some(&valid_set), settings, engine).unwrap()
+    };
+    let (fast, autograd) = (
+        run(&settings, TrainEngine::Fast),
+        run(&settings, TrainEngine::Autograd),
+    );
+    assert_eq!(
+        (fast.status, fast.epochs_run, fast.best_epoch),
+        (autograd.status, autograd.epochs_run, autograd.best_epoch)
+    );
+    let (fast_weights, autograd_weights) = (
+        fast.model.weights().unwrap(),
+        autograd.model.weights().unwrap(),
+    );
+    for (index, (got, want)) in fast_weights.iter().zip(&autograd_weights).enumerate() {
+        assert_close(&format!("weighted tensor {index}"), got, want, 1e-4);
+    }
+    // The weights reach the result: an unweighted run ends elsewhere.
+    let plain = run(&TrainSettings::new(3, 0, 4), TrainEngine::Fast);
+    assert_ne!(plain.model.weights().unwrap(), fast_weights);
+}
+
+#[test]
 fn fit_drives_both_learners_and_restores_the_best_epoch() {
     // Labels independent of features: the validation loss soon rises and training stops early.
     let (train_set, valid_set) = (random_data(60, 5), random_data(60, 6));
     let mut genome = genome(Activation::Relu, false, 0.0, Optimizer::Adam);
     genome.training.learning_rate = 0.05;
-    let settings = TrainSettings {
-        max_epochs: 60,
-        patience: 2,
-        seed: 7,
-    };
+    let settings = TrainSettings::new(60, 2, 7);
     let mut fast = FastMlpLearner::build(&genome, N_INPUTS, N_CLASSES, 7).unwrap();
     let fitted = fit(&mut fast, &train_set, Some(&valid_set), &settings, 8).unwrap();
     assert_eq!(fitted.status, TrainStatus::EarlyStopped);
@@ -203,11 +261,7 @@ fn no_hidden_layer_and_batches_larger_than_the_data_agree_with_autograd() {
     let mut genome = genome(Activation::Relu, false, 0.0, Optimizer::SgdMomentum);
     genome.layers.clear();
     genome.training.batch_size = 64;
-    let settings = TrainSettings {
-        max_epochs: 4,
-        patience: 0,
-        seed: 9,
-    };
+    let settings = TrainSettings::new(4, 0, 9);
     let run = |engine| train_with_engine(&genome, &data, Some(&data), &settings, engine).unwrap();
     let (fast, autograd) = (run(TrainEngine::Fast), run(TrainEngine::Autograd));
     assert_eq!(fast.status, TrainStatus::Completed);

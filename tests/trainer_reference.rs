@@ -2,13 +2,15 @@
 //!
 //! Source of every reference value: `tests/fixtures/mlp_fixture.json` (NumPy, float64,
 //! hand-derived backprop verified by finite differences; see `tests/fixtures/README.md`),
-//! except the x² Adam sequence, quoted from the shared fixtures README.
+//! except the x² Adam sequence, quoted from the shared fixtures README, and the
+//! class-weighted loss, printed by `tests/reference/weighted_loss_reference.py`.
 
 use candle_core::{Device, Tensor};
 use gemmule::genome::{Activation, LayerGene, LayerGenome, Optimizer, TrainGenes};
 use gemmule::net::{parameter_specs, seeded_rng, Mlp};
 use gemmule::train::{
-    adam_step, compute_gradients, AdamSettings, FastMlpLearner, Learner, OptimizerState,
+    adam_step, compute_gradients, compute_weighted_gradients, AdamSettings, FastMlpLearner,
+    Learner, OptimizerState,
 };
 use serde_json::Value;
 
@@ -256,6 +258,98 @@ fn fast_learner_matches_numpy_reference_over_two_adam_steps() {
     let logits = learner.logits(&x, 3).unwrap();
     let want = flat(&fixture["forward_2"]["logits"]);
     assert_close("forward_2.logits", &logits, &want, 1e-5, 1e-5);
+}
+
+/// Source: `python3 tests/reference/weighted_loss_reference.py` (NumPy 2.4.6, float64,
+/// hand-derived backprop checked against central finite differences to 5.4e-11): the
+/// class-weighted mean cross-entropy Σ w_{y_i}·CE_i / Σ w_{y_i} of the fixture's network
+/// ("params_0") on its three rows (labels 0, 1, 0) with class weights [0.6, 1.7], and its
+/// gradients in the fixture's layout.
+const WEIGHTED_LOSS: f64 = 0.17818860523204982;
+const WEIGHTED_GRADIENTS: [(&str, &[f64]); 4] = [
+    (
+        "W1",
+        &[
+            -0.03456560681585435,
+            0.03187256152468561,
+            -0.027648909993710884,
+            -0.0691312136317087,
+            -0.06374512304937122,
+            0.05529781998742177,
+            0.03456560681585435,
+            -0.12749024609874243,
+            0.018465965779230716,
+            -0.017282803407927174,
+            0.09561768457405682,
+            -0.09610811200907735,
+        ],
+    ),
+    (
+        "b1",
+        &[
+            -0.03456560681585435,
+            -0.06374512304937122,
+            0.002652291875643014,
+        ],
+    ),
+    (
+        "W2",
+        &[
+            -0.08888298895505406,
+            0.08888298895505403,
+            0.13618276287820225,
+            -0.13618276287820213,
+            -0.06866438479276855,
+            0.06866438479276858,
+        ],
+    ),
+    ("b2", &[-0.044074854557077346, 0.044074854557077374]),
+];
+
+#[test]
+fn weighted_loss_and_gradients_match_numpy_reference() {
+    let fixture = fixture();
+    let class_weights = [0.6f32, 1.7];
+    let weights = fixture_weights(&fixture, "params_0");
+    let x: Vec<f32> = flat(&fixture["inputs"]).iter().map(|&v| v as f32).collect();
+    let y: Vec<u32> = flat(&fixture["labels"]).iter().map(|&v| v as u32).collect();
+
+    // The fast learner, weighted through the Learner seam.
+    let mut learner = FastMlpLearner::new(&genome(), 4, 2, &weights).unwrap();
+    learner.set_class_weights(Some(&class_weights)).unwrap();
+    let (loss, gradients) = learner.gradients(&x, &y, 3, &mut seeded_rng(0, 0)).unwrap();
+    assert_close("fast weighted loss", &[loss], &[WEIGHTED_LOSS], 1e-5, 1e-6);
+    for ((key, want), got) in WEIGHTED_GRADIENTS.iter().zip(&gradients) {
+        assert_close(&format!("fast weighted {key}"), got, want, 1e-5, 1e-6);
+    }
+
+    // The candle autograd path.
+    let mlp = mlp_from_fixture(&fixture);
+    let (xt, yt) = batch(&fixture);
+    let reference =
+        compute_weighted_gradients(&mlp, &xt, &yt, &class_weights, &mut seeded_rng(0, 0)).unwrap();
+    assert_close(
+        "autograd weighted loss",
+        &[reference.loss],
+        &[WEIGHTED_LOSS],
+        1e-5,
+        1e-6,
+    );
+    for ((key, want), got) in WEIGHTED_GRADIENTS.iter().zip(reference.to_vecs().unwrap()) {
+        assert_close(&format!("autograd weighted {key}"), &got, want, 1e-5, 1e-6);
+    }
+
+    // Back to unweighted: the fixture's plain mean again (mlp_fixture.json forward_0.mean_loss).
+    learner.set_class_weights(None).unwrap();
+    let (loss, _) = learner.gradients(&x, &y, 3, &mut seeded_rng(0, 0)).unwrap();
+    let plain = fixture["forward_0"]["mean_loss"].as_f64().unwrap();
+    assert_close("unweighted loss", &[loss], &[plain], 1e-5, 1e-6);
+
+    // Weights must be one finite positive number per class.
+    for bad in [&[1.0f32][..], &[1.0, 0.0], &[1.0, f32::NAN], &[1.0, -2.0]] {
+        let error = learner.set_class_weights(Some(bad)).unwrap_err();
+        assert!(matches!(error, gemmule::Error::Input(_)), "{error:?}");
+    }
 }
 
 #[test]

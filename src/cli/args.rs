@@ -3,10 +3,10 @@
 
 use crate::data::image::ImageShape;
 use crate::data::SplitFractions;
-use crate::evaluate::TrainerSettings;
+use crate::evaluate::{ClassWeighting, TrainerSettings, Watched};
 use crate::genome::{Activation, AnySpace, Encoding, LayerSpace};
 use crate::train::Objective;
-use crate::workflow::{DataFormat, DataSource};
+use crate::workflow::{DataFormat, DataSource, FoldChoice};
 use crate::{Error, Result};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
@@ -106,48 +106,108 @@ pub struct DataArgs {
     /// plus a missing-indicator column) instead of refusing the file.
     #[arg(long)]
     pub impute: bool,
-    /// Train, validation and test shares, comma-separated.
-    #[arg(long, value_name = "T,V,S", default_value = "0.70,0.15,0.15")]
-    pub split: String,
-    /// Seed of the stratified split.
-    #[arg(long, value_name = "N", default_value_t = 0)]
-    pub split_seed: u64,
+    /// Train, validation and test shares, comma-separated (default
+    /// 0.70,0.15,0.15). With --test-data: T,V or T,V,S, the test share is
+    /// ignored and the data is split T:V. Not with --split-column.
+    #[arg(long, value_name = "T,V,S")]
+    pub split: Option<String>,
+    /// Seed of the stratified split (default 0). Not with --split-column.
+    #[arg(long, value_name = "N")]
+    pub split_seed: Option<u64>,
+    /// Identifier columns of a table: kept out of the features and written
+    /// beside every prediction. Repeat the option or give a comma-separated list.
+    #[arg(long = "id", value_name = "COLUMN[,COLUMN]", value_delimiter = ',')]
+    pub id: Vec<String>,
+    /// Columns of a table to leave out of the features. Repeat the option or
+    /// give a comma-separated list.
+    #[arg(long, value_name = "COLUMN[,COLUMN]", value_delimiter = ',')]
+    pub ignore: Vec<String>,
+    /// A fixed test set: a CSV file with the same columns as --data whose rows
+    /// are the sealed test part; --data is split into training and validation only.
+    #[arg(long, value_name = "FILE.csv")]
+    pub test_data: Option<PathBuf>,
+    /// A column whose values train, validation or test (lower case) assign
+    /// every row to its part; the column is not a feature.
+    #[arg(long, value_name = "COLUMN")]
+    pub split_column: Option<String>,
 }
 
 impl DataArgs {
     /// The data source these options describe.
     pub fn source(&self) -> Result<DataSource> {
-        let parts: Vec<&str> = self.split.split(',').map(str::trim).collect();
-        let parse = |s: &str| -> Result<f64> {
-            s.parse::<f64>().map_err(|_| {
-                Error::input(format!(
-                    "--split {}: `{s}` is not a number; give three shares such as 0.70,0.15,0.15",
-                    self.split
-                ))
-            })
-        };
-        if parts.len() != 3 {
-            return Err(Error::input(format!(
-                "--split {}: give three comma-separated shares (train,validation,test), such as 0.70,0.15,0.15",
-                self.split
-            )));
+        if self.test_data.is_some() && self.split_column.is_some() {
+            return Err(Error::input(
+                "--test-data and --split-column both fix the test rows; give one of them",
+            ));
         }
-        let fractions = SplitFractions {
-            train: parse(parts[0])?,
-            valid: parse(parts[1])?,
-            test: parse(parts[2])?,
+        if let Some(column) = &self.split_column {
+            if self.split.is_some() || self.split_seed.is_some() {
+                return Err(Error::input(format!(
+                    "--split-column {column} assigns every row, so --split and --split-seed \
+                     have nothing to do; leave them out"
+                )));
+            }
+        }
+        let fractions = match &self.split {
+            None => SplitFractions::default(),
+            Some(text) => self.fractions(text)?,
         };
-        fractions.validate()?;
-        Ok(DataSource {
+        if self.test_data.is_some() {
+            fractions.validate_without_test()?;
+        } else {
+            fractions.validate()?;
+        }
+        let source = DataSource {
             path: self.data.clone(),
             format: self.format()?,
             label: self.label.clone(),
             delimiter: self.delimiter,
             impute: self.impute,
             fractions,
-            split_seed: self.split_seed,
-        })
+            split_seed: self.split_seed.unwrap_or(0),
+            id_columns: trimmed(&self.id),
+            ignore_columns: trimmed(&self.ignore),
+            test_data: self.test_data.clone(),
+            split_column: self.split_column.as_ref().map(|c| c.trim().to_string()),
+            recorded_test_fingerprint: None,
+        };
+        source.table_roles()?;
+        Ok(source)
     }
+
+    /// Reads `--split`: three shares, or two (train, validation) with --test-data.
+    fn fractions(&self, text: &str) -> Result<SplitFractions> {
+        let parts: Vec<&str> = text.split(',').map(str::trim).collect();
+        let parse = |s: &str| -> Result<f64> {
+            s.parse::<f64>().map_err(|_| {
+                Error::input(format!(
+                    "--split {text}: `{s}` is not a number; give three shares such as 0.70,0.15,0.15"
+                ))
+            })
+        };
+        match (parts.as_slice(), self.test_data.is_some()) {
+            ([train, valid, test], _) => Ok(SplitFractions {
+                train: parse(train)?,
+                valid: parse(valid)?,
+                test: parse(test)?,
+            }),
+            ([train, valid], true) => Ok(SplitFractions {
+                train: parse(train)?,
+                valid: parse(valid)?,
+                test: 0.0,
+            }),
+            _ => Err(Error::input(format!(
+                "--split {text}: give three comma-separated shares (train,validation,test), such as 0.70,0.15,0.15{}",
+                if self.test_data.is_some() { " (or two, train,validation, with --test-data)" } else { "" }
+            ))),
+        }
+    }
+}
+
+/// Column names of `--id` / `--ignore` without surrounding spaces (empty names
+/// stay empty, to be refused with the option's name).
+fn trimmed(names: &[String]) -> Vec<String> {
+    names.iter().map(|n| n.trim().to_string()).collect()
 }
 
 impl DataArgs {
@@ -525,10 +585,57 @@ pub struct TrainerArgs {
     /// keeps no population (`search` refuses it, `compare` cuts only evolution).
     #[arg(long)]
     pub curve_cut: bool,
+    /// Score each candidate by stratified K-fold cross-validation on
+    /// train+validation (the test split stays sealed): a number K ≥ 2, `off`
+    /// for one validation split, or `auto` (5 folds for tables of at most
+    /// 4,000 train+validation rows, one split otherwise and for images).
+    #[arg(long, value_name = "K|off|auto", default_value = "auto", value_parser = parse_folds)]
+    pub folds: FoldChoice,
+    /// What early stopping and the restore of the best weights watch on the
+    /// held-out rows: the validation loss or the search objective.
+    #[arg(long, value_enum, default_value_t = WatchArg::Loss)]
+    pub watch: WatchArg,
+    /// Weight the training loss by class: `balanced` gives each class
+    /// n_rows / (n_classes · its rows), so rare classes count as much as
+    /// common ones.
+    #[arg(long, value_enum, value_name = "balanced")]
+    pub class_weight: Option<ClassWeightArg>,
+}
+
+/// `--watch` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum WatchArg {
+    /// The mean cross-entropy on the held-out rows (lowest is best).
+    Loss,
+    /// The search objective on the held-out rows (highest is best).
+    Objective,
+}
+
+/// `--class-weight` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ClassWeightArg {
+    /// n_rows / (n_classes · rows of the class), on the rows a network trains on.
+    Balanced,
+}
+
+/// Reads `--folds`: `auto`, `off` or a whole number of at least 2.
+fn parse_folds(text: &str) -> Result<FoldChoice, String> {
+    match text {
+        "auto" => Ok(FoldChoice::Auto),
+        "off" => Ok(FoldChoice::Off),
+        number => match number.parse::<u32>() {
+            Ok(k) if k >= 2 => Ok(FoldChoice::Exactly(k)),
+            _ => Err(format!(
+                "{number:?} is not a fold count: give a whole number of 2 or more (such as 5), \
+                 `off` for one validation split, or `auto`"
+            )),
+        },
+    }
 }
 
 impl TrainerArgs {
-    /// The settings these options ask for.
+    /// The settings these options ask for (the fold count is decided with
+    /// the data, from [`TrainerArgs::folds`]).
     pub fn settings(&self) -> TrainerSettings {
         TrainerSettings {
             max_epochs: self.epochs,
@@ -540,6 +647,12 @@ impl TrainerArgs {
             max_memory_mb: self.max_memory_mb,
             augment: self.augment,
             curve_cut: self.curve_cut,
+            folds: None,
+            watch: match self.watch {
+                WatchArg::Loss => Watched::Loss,
+                WatchArg::Objective => Watched::Objective,
+            },
+            class_weight: self.class_weight.map(|_| ClassWeighting::Balanced),
         }
     }
 }
@@ -588,6 +701,10 @@ pub struct ShowArgs {
     /// Print everything as one JSON document on standard output (keys in docs/json-output.md).
     #[arg(long)]
     pub json: bool,
+    /// The pick rule to show (default: one standard error for k-fold runs,
+    /// the top objective otherwise; see `finalize --pick`).
+    #[arg(long, value_enum)]
+    pub pick: Option<PickArg>,
 }
 
 /// Options of `gemmule finalize`.
@@ -608,4 +725,36 @@ pub struct FinalizeArgs {
     /// The data file or image folder, if it moved since the run started (its content must be unchanged).
     #[arg(long, value_name = "FILE.csv|DIR")]
     pub data: Option<PathBuf>,
+    /// Finalize this evaluation (a journal index, as `show` lists them)
+    /// instead of the pick, e.g. a member of the Pareto front.
+    #[arg(long, value_name = "N")]
+    pub index: Option<u64>,
+    /// How the pick is made: `one-se` (fewest parameters within one standard
+    /// error of the best k-fold mean; the default with folds) or `top` (the
+    /// highest objective; the default with one validation split).
+    #[arg(long, value_enum)]
+    pub pick: Option<PickArg>,
+    /// The class whose probability the binary ROC AUC ranks by (default:
+    /// the second class in sorted order).
+    #[arg(long, value_name = "CLASS")]
+    pub positive: Option<String>,
+}
+
+/// `--pick` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PickArg {
+    /// The one-standard-error rule on k-fold scores.
+    OneSe,
+    /// The highest validation objective.
+    Top,
+}
+
+impl PickArg {
+    /// The library's rule.
+    pub fn rule(self) -> crate::search::PickRule {
+        match self {
+            PickArg::OneSe => crate::search::PickRule::OneSe,
+            PickArg::Top => crate::search::PickRule::Top,
+        }
+    }
 }

@@ -1,7 +1,8 @@
 //! One function per command.
 
 use super::args::{
-    Command, FinalizeArgs, PredictArgs, ResumeArgs, SearchArgs, SpaceArgs, StrategyArg, TrainArgs,
+    Command, FinalizeArgs, PickArg, PredictArgs, ResumeArgs, SearchArgs, SpaceArgs, StrategyArg,
+    TrainArgs,
 };
 use super::progress::ProgressObserver;
 use super::show::show;
@@ -10,7 +11,7 @@ use crate::bundle::ModelBundle;
 use crate::evaluate::scores_map;
 use crate::genome::{AnyGenome, AnySpace, SearchSpace};
 use crate::model::{genome_cost, train_genome};
-use crate::search::{AgingSettings, Budget, Journal, SearchEnding, SearchOutcome};
+use crate::search::{AgingSettings, Budget, Journal, RunVerdict, SearchEnding, SearchOutcome};
 use crate::train::TrainSettings;
 use crate::workflow::{finalize, resume_job, FinalizeOptions, SearchJob, StrategyChoice};
 use crate::Error;
@@ -58,11 +59,7 @@ fn train_command(a: TrainArgs) -> Result<i32> {
     let layout = prepared.layout();
     genome_cost(&genome, &layout, prepared.info.class_names.len())
         .map_err(|e| Error::input(format!("{}: {e}", a.genome.display())))?;
-    let settings = TrainSettings {
-        max_epochs: a.epochs,
-        patience: a.patience,
-        seed: a.seed,
-    };
+    let settings = TrainSettings::new(a.epochs, a.patience, a.seed);
     let outcome = train_genome(
         &genome,
         &prepared.train,
@@ -147,7 +144,12 @@ fn predict_command(a: PredictArgs) -> Result<i32> {
     };
     warn_all(&predictions.warnings);
     let with_sources = !predictions.sources.is_empty();
-    let mut out = String::from(if with_sources {
+    let mut out = String::new();
+    for name in &predictions.id_names {
+        out.push_str(&csv_safe(name));
+        out.push(',');
+    }
+    out.push_str(if with_sources {
         "row,source,predicted"
     } else {
         "row,predicted"
@@ -158,6 +160,10 @@ fn predict_command(a: PredictArgs) -> Result<i32> {
     out.push('\n');
     let k = predictions.class_names.len();
     for (row, &class) in predictions.classes.iter().enumerate() {
+        for id in predictions.ids.get(row).into_iter().flatten() {
+            out.push_str(&csv_safe(id));
+            out.push(',');
+        }
         out.push_str(&(row + 1).to_string());
         if let Some(source) = predictions.sources.get(row) {
             out.push(',');
@@ -330,6 +336,7 @@ fn search_command(a: SearchArgs, stop: &AtomicBool) -> Result<i32> {
             Some(path) => read_genome_list(path)?,
             None => Vec::new(),
         },
+        folds: a.trainer.folds,
     };
     if let Some(path) = &a.seed_genomes {
         for (i, genome) in job.seed_genomes.iter().enumerate() {
@@ -472,6 +479,11 @@ fn report_outcome(run: &std::path::Path, outcome: SearchOutcome) -> Result<i32> 
         "{} evaluations in the journal ({} new); best validation objective {best}",
         outcome.evaluations, outcome.new_evaluations
     );
+    if let Ok(contents) = Journal::read::<serde_json::Value>(&Journal::path_in(run)) {
+        for line in RunVerdict::new(&contents, None).lines() {
+            println!("{line}");
+        }
+    }
     match outcome.ending {
         SearchEnding::BudgetSpent => {
             println!(
@@ -500,42 +512,13 @@ fn finalize_command(a: FinalizeArgs) -> Result<i32> {
         repeats: a.repeats,
         reopen: a.reopen,
         data: a.data.clone(),
+        index: a.index,
+        pick: a.pick.map(PickArg::rule),
+        positive_class: a.positive.clone(),
+        ledger: None,
     };
     let report = finalize(&a.run, &options).context("finalize")?;
-    println!(
-        "chosen: evaluation {} (genome {}), {}",
-        report.index, report.id, report.selection
-    );
-    println!("validation objective: {:.4}", report.validation_objective);
-    print!(
-        "{}",
-        report
-            .genome
-            .text(Some(report.n_inputs), Some(report.n_classes), false)
-    );
-    println!(
-        "retrained on {} rows (train+validation) for {} epochs, seed {}",
-        report.trained_rows, report.epochs, report.seed
-    );
-    println!(
-        "test split opened: this is opening number {} of this run's test split",
-        report.opening
-    );
-    let acc = report
-        .test_scores
-        .get("accuracy")
-        .copied()
-        .unwrap_or(f64::NAN);
-    let (lo, hi) = report.test_accuracy_interval;
-    println!(
-        "test accuracy: {acc:.4} (95% Wilson interval {lo:.4}..{hi:.4}, {} rows)",
-        report.test_rows
-    );
-    for (name, value) in &report.test_scores {
-        if name != "accuracy" {
-            println!("test {name}: {value:.4}");
-        }
-    }
+    print!("{}", super::final_text::final_report_text(&report));
     println!(
         "final model saved in {}",
         a.run.join(&report.model_dir).display()

@@ -131,9 +131,10 @@ fn plan_from(a: &CompareArgs) -> Result<ComparePlan> {
     let trainer = a.trainer.settings();
     let source = a.data.source()?;
     let space = a.space.any_space(source.is_images())?;
-    Ok(ComparePlan::new(
-        source, space, trainer, strategies, seeds, a.budget, jobs,
-    )?)
+    Ok(
+        ComparePlan::new(source, space, trainer, strategies, seeds, a.budget, jobs)?
+            .with_folds(a.trainer.folds),
+    )
 }
 
 /// Per-run lines and a progress bar per run, on standard error.

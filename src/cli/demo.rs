@@ -2,7 +2,7 @@
 
 use super::compare::{render_report, CliComparisonObserver};
 use super::EXIT_INTERRUPTED;
-use crate::workflow::{run_demo, Comparison, DemoOptions, FinalReport};
+use crate::workflow::{run_demo, Comparison, DemoOptions};
 use anyhow::Result;
 use clap::Args;
 use std::path::PathBuf;
@@ -82,29 +82,45 @@ pub fn demo_command(a: DemoArgs, stop: &AtomicBool) -> Result<i32> {
     );
     println!();
     println!("                               validation   test accuracy (95% interval)");
-    print_line("winner", winner);
-    print_line("baseline, no hidden layer", &outcome.baseline);
+    print_line(
+        "winner",
+        winner.validation_objective,
+        &winner.test_scores,
+        winner.test_accuracy_interval,
+    );
+    let baseline = &outcome.baseline;
+    print_line(
+        "baseline, no hidden layer",
+        baseline.validation_objective.unwrap_or(f64::NAN),
+        &baseline.test_scores,
+        baseline.test_accuracy_interval,
+    );
+    if let Some(m) = &winner.mcnemar {
+        println!(
+            "  test rows only the winner got right: {}, only the baseline: {}; exact McNemar p = {:.4}",
+            m.pick_only_right, m.baseline_only_right, m.p_value
+        );
+    }
     println!(
         "report: {}",
         outcome.comparison_dir.join("report.html").display()
     );
     println!(
-        "finished in {:.0} s; the test splits were opened once each (see `gemmule show {}`)",
+        "finished in {:.0} s; the test split was opened once, for the winner and the baseline together (see `gemmule show {}`)",
         started.elapsed().as_secs_f64(),
         outcome.winner_run.display()
     );
     Ok(0)
 }
 
-fn print_line(name: &str, report: &FinalReport) {
-    let (lo, hi) = report.test_accuracy_interval;
+fn print_line(
+    name: &str,
+    validation: f64,
+    test_scores: &std::collections::BTreeMap<String, f64>,
+    (lo, hi): (f64, f64),
+) {
     println!(
-        "  {name:<27}  {:>9.4}   {:.4} ({lo:.4}..{hi:.4})",
-        report.validation_objective,
-        report
-            .test_scores
-            .get("accuracy")
-            .copied()
-            .unwrap_or(f64::NAN)
+        "  {name:<27}  {validation:>9.4}   {:.4} ({lo:.4} to {hi:.4})",
+        test_scores.get("accuracy").copied().unwrap_or(f64::NAN)
     );
 }

@@ -13,6 +13,7 @@ mod args;
 mod commands;
 mod compare;
 mod demo;
+mod final_text;
 mod progress;
 mod report;
 mod show;

@@ -4,9 +4,10 @@ use super::args::ShowArgs;
 use super::show_json::{status_counts, ShowDocument};
 use crate::render::{lineage, lineage_lines, pareto_front, DrawableGenome};
 use crate::search::{
-    EvalStatus, EvaluationRecord, Journal, JournalContents, RunHeader, RunSummary, TimingEntry,
-    TimingLog,
+    EvalStatus, EvaluationRecord, Journal, JournalContents, RunHeader, RunSummary, RunVerdict,
+    TimingEntry, TimingLog,
 };
+use crate::workflow::FinalReport;
 use crate::Error;
 use anyhow::Result;
 use serde_json::Value;
@@ -115,6 +116,7 @@ fn print_text(
     seconds: f64,
     ascii: bool,
 ) -> Result<i32> {
+    let verdict = RunVerdict::new(contents, args.pick.map(super::args::PickArg::rule));
     let h = &contents.header;
     let objective = h
         .trainer
@@ -175,27 +177,33 @@ fn print_text(
             .join(", "),
         seconds
     );
-    println!("test split opened {} time(s)", contents.openings.len());
-    if let Some(last) = contents.openings.last() {
-        if let Some(acc) = last
-            .pointer("/body/test_scores/accuracy")
-            .or_else(|| last.pointer("/test_scores/accuracy"))
-        {
-            println!("  latest test accuracy: {acc}");
-        }
+    for line in verdict.lines() {
+        println!("{}", plain(&line, ascii));
     }
+    print_openings(&contents.openings);
     println!();
     println!("top {} by validation {objective}:", summary.top.len());
     println!(
-        "{:>5}  {:<12}  {:>9}  {:>9}  {:>6}  {:<14}  {:>6}",
-        "index", "id", objective, "params", "epochs", "mutation", "parent"
+        "{:>5}  {:<12}  {:>9}  {:>7}  {:>9}  {:>6}  {:<14}  {:>6}",
+        "index",
+        "id",
+        objective,
+        plain("± se", ascii),
+        "params",
+        "epochs",
+        "mutation",
+        "parent"
     );
     for r in &summary.top {
         println!(
-            "{:>5}  {:<12}  {:>9.4}  {:>9}  {:>6}  {:<14}  {:>6}",
+            "{:>5}  {:<12}  {:>9.4}  {:>7}  {:>9}  {:>6}  {:<14}  {:>6}",
             r.index,
             r.id,
             r.objective.unwrap_or(f64::NAN),
+            r.folds
+                .as_ref()
+                .and_then(|f| f.standard_error)
+                .map_or("-".into(), |se| format!("{se:.4}")),
             r.params.map_or("-".into(), |p| p.to_string()),
             r.epochs,
             r.mutation.as_deref().unwrap_or("(sampled)"),
@@ -234,6 +242,61 @@ fn print_text(
         );
     }
     Ok(0)
+}
+
+/// `text` with "±" written "+/-" for terminals without UTF-8 (`--ascii`).
+fn plain(text: &str, ascii: bool) -> String {
+    if ascii {
+        text.replace('±', "+/-").replace('–', "-")
+    } else {
+        text.to_string()
+    }
+}
+
+/// The test openings this run made, with the latest one's scores and how
+/// often its test split has been opened by any run (the test ledger).
+fn print_openings(openings: &[Value]) {
+    let Some(last) = openings.last() else {
+        println!("test split: sealed (never opened by this run)");
+        return;
+    };
+    let plural = if openings.len() == 1 { "" } else { "s" };
+    println!(
+        "test split: opened {} time{plural} by this run",
+        openings.len()
+    );
+    let Ok(report) = FinalReport::from_opening(last) else {
+        return;
+    };
+    print!("  {}", super::final_text::opening_line(&report));
+    if let Some(count) = ledger_count(&report) {
+        let plural = if count == 1 { "" } else { "s" };
+        println!("  the test ledger records {count} opening{plural} of this test split by any run");
+    }
+    let accuracy = report
+        .test_scores
+        .get("accuracy")
+        .copied()
+        .unwrap_or(f64::NAN);
+    let (lo, hi) = report.test_accuracy_interval;
+    println!(
+        "  latest test accuracy: {accuracy:.4} (95% Wilson interval {lo:.4} to {hi:.4}, {} rows)",
+        report.test_rows
+    );
+    if let Some(verdict) = report.verdict() {
+        println!("  {verdict}");
+    }
+}
+
+/// Openings of the report's test split in the user's test ledger, when it can be read.
+fn ledger_count(report: &FinalReport) -> Option<usize> {
+    let split = crate::ledger::TestSplitId::parse(report.split_id.as_deref()?).ok()?;
+    let location = crate::ledger::LedgerLocation::from_env().ok()?;
+    if !location.file().is_file() {
+        return None;
+    }
+    let ledger = crate::ledger::Ledger::open(location).ok()?;
+    ledger.openings(&split).ok().map(|entries| entries.len())
 }
 
 /// About ten marks of the best-so-far curve, wrapped to the text width.

@@ -52,6 +52,9 @@ pub struct ShowDocument {
     pub pareto_front: Vec<FrontEntry>,
     /// What the journal records about the sealed test split (`show` never opens it).
     pub test_split: TestSplit,
+    /// How candidates were scored (`folds`), the pick and its rule, the
+    /// baselines and the pick's paired difference over the linear baseline.
+    pub verdict: crate::search::RunVerdict,
     /// Problems met while reading the journal (also printed on standard error).
     pub warnings: Vec<String>,
 }
@@ -123,6 +126,9 @@ pub struct Candidate {
     pub mutation: Option<String>,
     /// Explanation for failures and over-budget candidates.
     pub message: Option<String>,
+    /// Every fold of its k-fold evaluation (absent for one validation split).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub folds: Option<crate::search::FoldScores>,
 }
 
 /// The candidate `show` draws, with its genome.
@@ -174,6 +180,10 @@ pub struct TestOpening {
     pub test_rows: Option<u64>,
     /// Test scores by name.
     pub test_scores: BTreeMap<String, f64>,
+    /// The whole final evaluation (per-class results, the linear baseline in
+    /// the same opening, McNemar, the test ledger), for openings made by a
+    /// gemmule that records them.
+    pub final_evaluation: Option<crate::workflow::FinalReport>,
 }
 
 /// The journal name of a status (`completed`, `over_budget`, …).
@@ -250,6 +260,7 @@ impl ShowDocument {
             lineage: chosen.map_or_else(Vec::new, |r| lineage(records, r.index)),
             pareto_front: front,
             test_split: test_split(&contents.openings),
+            verdict: crate::search::RunVerdict::new(contents, None),
             warnings: contents.warnings.clone(),
         }
     }
@@ -269,6 +280,7 @@ fn candidate(r: &EvaluationRecord<Value>) -> Candidate {
         parent: r.parent,
         mutation: r.mutation.clone(),
         message: r.message.clone(),
+        folds: r.folds.clone(),
     }
 }
 
@@ -305,7 +317,13 @@ fn test_split(openings: &[Value]) -> TestSplit {
         .iter()
         .enumerate()
         .map(|(position, body)| TestOpening {
-            opening: position as u64 + 1,
+            opening: body
+                .get("opening")
+                .and_then(Value::as_u64)
+                .unwrap_or(position as u64 + 1),
+            final_evaluation: crate::workflow::FinalReport::from_opening(body)
+                .ok()
+                .filter(|report| report.class_report.is_some()),
             index: body.get("index").and_then(Value::as_u64),
             id: body.get("id").and_then(Value::as_str).map(String::from),
             test_rows: body.get("test_rows").and_then(Value::as_u64),

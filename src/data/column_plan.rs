@@ -147,6 +147,33 @@ impl ColumnPlan {
     }
 }
 
+/// Fewest non-missing training cells before a text column can look like an identifier.
+pub(crate) const IDENTIFIER_MIN_ROWS: usize = 20;
+
+/// A warning when a text column's training cells are nearly all distinct: at least
+/// [`IDENTIFIER_MIN_ROWS`] non-missing cells, more than half of them distinct values.
+/// Such a column (a name, a code, a free-text note) becomes one one-hot input per
+/// value, which cannot generalise to new rows.
+pub(crate) fn identifier_warning(name: &str, texts: &[&str]) -> Option<String> {
+    let present: Vec<&str> = texts.iter().copied().filter(|t| !is_missing(t)).collect();
+    if present.len() < IDENTIFIER_MIN_ROWS {
+        return None;
+    }
+    let distinct = present
+        .iter()
+        .collect::<std::collections::BTreeSet<_>>()
+        .len();
+    (2 * distinct > present.len()).then(|| {
+        format!(
+            "column '{name}' holds {distinct} distinct texts in {} training rows, so it looks \
+             like an identifier: one-hot encoding turns it into {distinct} inputs that cannot \
+             generalise to new rows; pass --id {name} to carry it beside the predictions, or \
+             --ignore {name} to leave it out",
+            present.len()
+        )
+    })
+}
+
 /// Median fill (if imputing) and standardisation of a numeric column; no
 /// encoding if its training values are constant.
 fn fit_numeric(
@@ -261,6 +288,27 @@ mod tests {
         assert_eq!(plan.fill, Some(Fill::Category("a".into())));
         assert!(!plan.missing_indicator);
         assert_eq!(plan.encoded_names(), ["c=a", "c=b", "c=c"]);
+    }
+
+    #[test]
+    fn nearly_distinct_text_columns_look_like_identifiers() {
+        let codes: Vec<String> = (0..20).map(|i| format!("r{i}")).collect();
+        let texts: Vec<&str> = codes.iter().map(String::as_str).collect();
+        let warning = identifier_warning("code", &texts).expect("20 distinct of 20");
+        assert!(
+            warning.contains("--id code") && warning.contains("20 distinct"),
+            "{warning}"
+        );
+        assert!(
+            identifier_warning("code", &texts[..19]).is_none(),
+            "19 rows are too few"
+        );
+        // 10 distinct of 20 is half, not more than half.
+        let halves: Vec<&str> = texts.iter().map(|t| &t[..2]).collect();
+        assert!(identifier_warning("code", &halves).is_none());
+        let mut eleven = halves.clone();
+        eleven[10] = "x";
+        assert!(identifier_warning("code", &eleven).is_some());
     }
 
     #[test]

@@ -139,6 +139,14 @@ impl Table {
     pub(crate) fn file(&self) -> String {
         self.path.display().to_string()
     }
+
+    /// Makes the column `name` the label (e.g. the data's label in a test file
+    /// read without one) and checks the numeric feature columns again, since
+    /// the column that was the label until now was not checked.
+    pub(crate) fn relabel(&mut self, name: &str) -> Result<()> {
+        self.label = find_label(&self.file(), &self.names, Some(name))?;
+        check_finite(self)
+    }
 }
 
 /// Reads a CSV file with a header row into a [`Table`].

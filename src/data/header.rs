@@ -83,22 +83,27 @@ pub(crate) fn find_label(file: &str, names: &[String], label: Option<&str>) -> R
     match label {
         None => Ok(names.len() - 1),
         Some(wanted) => names.iter().position(|n| n == wanted).ok_or_else(|| {
-            let mut listed: Vec<String> = names
-                .iter()
-                .take(NAMES_LISTED)
-                .map(|n| shorten(n, QUOTE_CHARS))
-                .collect();
-            if names.len() > NAMES_LISTED {
-                listed.push(format!("and {} more", names.len() - NAMES_LISTED));
-            }
             Error::input(format!(
                 "{file}: there is no column named '{}' to use as the label; the columns \
                  are: {}",
                 shorten(wanted, QUOTE_CHARS),
-                listed.join(", ")
+                listed_names(names)
             ))
         }),
     }
+}
+
+/// The column names for a message: the first 20 (each shortened), then "and N more".
+pub(crate) fn listed_names(names: &[String]) -> String {
+    let mut listed: Vec<String> = names
+        .iter()
+        .take(NAMES_LISTED)
+        .map(|n| shorten(n, QUOTE_CHARS))
+        .collect();
+    if names.len() > NAMES_LISTED {
+        listed.push(format!("and {} more", names.len() - NAMES_LISTED));
+    }
+    listed.join(", ")
 }
 
 #[cfg(test)]

@@ -4,10 +4,11 @@
 use serde::{Deserialize, Serialize};
 
 use crate::data::cells::{count_of, is_missing, CellList};
-use crate::data::column_plan::{ColumnPlan, Fitted, ValueEncoding};
+use crate::data::column_plan::{identifier_warning, ColumnPlan, Fitted, ValueEncoding};
 use crate::data::encode::encode_features;
 use crate::data::labels::{class_index, class_indices};
-use crate::data::{Dataset, Table};
+use crate::data::roles::resolve_roles;
+use crate::data::{Dataset, Table, TableRoles};
 use crate::{Error, Result};
 
 /// Turns table rows into model input: imputation, one-hot encoding and
@@ -17,7 +18,10 @@ use crate::{Error, Result};
 /// value columns (one standardised number, or one 0/1 column per training
 /// category in sorted order), then a 0/1 missing-indicator column if the
 /// column had missing training cells and imputation was on. Columns are found
-/// by name, so a later file may order them differently.
+/// by name, so a later file may order them differently. Identifier and ignored
+/// columns (see [`TableRoles`]) are not features; the identifier names are kept
+/// so predictions can carry their values (both lists are left out of the JSON
+/// when empty, so older model files read and write the same bytes).
 #[derive(Serialize, Deserialize, Clone, Debug, PartialEq)]
 pub struct Preprocessor {
     label: String,
@@ -25,6 +29,10 @@ pub struct Preprocessor {
     columns: Vec<ColumnPlan>,
     dropped: Vec<String>,
     imputes: bool,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    id_columns: Vec<String>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    ignored_columns: Vec<String>,
 }
 
 /// Rows encoded for prediction.
@@ -54,8 +62,29 @@ impl Preprocessor {
         train_rows: &[usize],
         impute: bool,
     ) -> Result<(Preprocessor, Vec<String>)> {
+        Preprocessor::fit_with_roles(table, train_rows, impute, &TableRoles::default())
+    }
+
+    /// [`Preprocessor::fit`] with identifier, ignored and split columns (by name,
+    /// see [`TableRoles`]) kept out of the features; each must exist and none may
+    /// be the label. Also warns about text feature columns that look like
+    /// identifiers (at least 20 non-missing training cells, more than half of
+    /// them distinct).
+    pub fn fit_with_roles(
+        table: &Table,
+        train_rows: &[usize],
+        impute: bool,
+        roles: &TableRoles,
+    ) -> Result<(Preprocessor, Vec<String>)> {
+        let resolved = resolve_roles(table, roles)?;
+        let names_of = |columns: &[usize]| -> Vec<String> {
+            columns
+                .iter()
+                .map(|&c| table.column_names()[c].clone())
+                .collect()
+        };
         let features: Vec<usize> = (0..table.column_names().len())
-            .filter(|&c| c != table.label_index())
+            .filter(|&c| c != table.label_index() && !resolved.excluded.contains(&c))
             .collect();
         if features.is_empty() {
             return Err(Error::input(format!(
@@ -90,6 +119,9 @@ impl Preprocessor {
                 .collect();
             match ColumnPlan::fit(name, table.kind(column), &texts, impute)? {
                 Fitted::Kept(plan, warning) => {
+                    if !plan.is_numeric() {
+                        warnings.extend(identifier_warning(name, &texts));
+                    }
                     columns.push(plan);
                     warnings.extend(warning);
                 }
@@ -116,6 +148,8 @@ impl Preprocessor {
             columns,
             dropped,
             imputes: impute,
+            id_columns: names_of(&resolved.ids),
+            ignored_columns: names_of(&resolved.ignored),
         };
         Ok((preprocessor, warnings))
     }
@@ -194,6 +228,48 @@ impl Preprocessor {
     /// Whether missing feature cells are filled (fitted with imputation).
     pub fn imputes(&self) -> bool {
         self.imputes
+    }
+
+    /// Identifier columns (`--id`), in the order given: not features, but carried
+    /// beside every prediction.
+    pub fn id_columns(&self) -> &[String] {
+        &self.id_columns
+    }
+
+    /// Columns left out of the features (`--ignore`).
+    pub fn ignored_columns(&self) -> &[String] {
+        &self.ignored_columns
+    }
+
+    /// The identifier values of every row of `table`, one `Vec` per row in
+    /// [`Preprocessor::id_columns`] order, plus a warning for each identifier
+    /// column the file lacks (its values are left empty).
+    pub fn id_values(&self, table: &Table) -> (Vec<Vec<String>>, Vec<String>) {
+        let mut warnings = Vec::new();
+        let columns: Vec<Option<&[String]>> = self
+            .id_columns
+            .iter()
+            .map(|name| {
+                let texts = table.column_texts(name);
+                if texts.is_none() {
+                    warnings.push(format!(
+                        "{}: there is no identifier column '{name}' (the model was trained \
+                         with --id {name}); its cells in the predictions are left empty",
+                        table.file()
+                    ));
+                }
+                texts
+            })
+            .collect();
+        let values = (0..table.n_rows())
+            .map(|row| {
+                columns
+                    .iter()
+                    .map(|texts| texts.and_then(|t| t.get(row)).cloned().unwrap_or_default())
+                    .collect()
+            })
+            .collect();
+        (values, warnings)
     }
 
     /// The training mean and standard deviation (ddof 0) used to standardise a

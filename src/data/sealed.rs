@@ -41,6 +41,23 @@ impl<T> Sealed<T> {
         (self.inner, opening)
     }
 
+    /// Seals `self` and `other` together without opening either, so that one
+    /// [`Sealed::open`] reveals both (e.g. the test [`crate::data::Dataset`] with
+    /// its [`crate::data::RowTags`]) and gives one [`Opening`] record. Both must
+    /// hold the same number of rows.
+    pub fn zip<U>(self, other: Sealed<U>) -> crate::Result<Sealed<(T, U)>> {
+        if self.rows != other.rows {
+            return Err(crate::Error::internal(format!(
+                "sealed parts of {} and {} rows cannot be opened together",
+                self.rows, other.rows
+            )));
+        }
+        Ok(Sealed {
+            inner: (self.inner, other.inner),
+            rows: self.rows,
+        })
+    }
+
     /// Applies `f` to the sealed value without opening it (e.g. to encode rows).
     pub(crate) fn map<U>(self, f: impl FnOnce(T) -> U) -> Sealed<U> {
         Sealed {
@@ -56,6 +73,14 @@ impl<T> Sealed<T> {
             Ok(inner) => Ok(Sealed { inner, rows }),
             Err(error) => Err(error),
         }
+    }
+}
+
+impl<A, B> Sealed<(A, B)> {
+    /// Splits a sealed pair into two seals over the same rows, neither opened.
+    pub(crate) fn unzip(self) -> (Sealed<A>, Sealed<B>) {
+        let (a, b) = self.inner;
+        (Sealed::new(a, self.rows), Sealed::new(b, self.rows))
     }
 }
 

@@ -95,6 +95,52 @@ pub(crate) fn split_named(
     })
 }
 
+/// Splits rows by class into training and validation only, for a table whose test
+/// rows come from elsewhere (a test file). Per class of `n` rows, validation gets
+/// `round(n · valid_share)` rows, at least 1 and at most `n − 1`, and training the
+/// rest, so every class needs 2 rows. Rows are shuffled as in [`stratified_split`]
+/// (one ChaCha8 generator from `seed`, classes in index order); validation takes the
+/// first rows. Returns (train, valid), each ascending.
+pub(crate) fn split_train_valid(
+    labels: &[u32],
+    class_names: &[String],
+    valid_share: f64,
+    seed: u64,
+) -> Result<(Vec<usize>, Vec<usize>)> {
+    let mut rows_of_class: Vec<Vec<usize>> = vec![Vec::new(); class_names.len()];
+    for (row, &class) in labels.iter().enumerate() {
+        rows_of_class
+            .get_mut(class as usize)
+            .ok_or_else(|| Error::internal(format!("row {row} has class index {class}")))?
+            .push(row);
+    }
+    let small: Vec<String> = rows_of_class
+        .iter()
+        .zip(class_names)
+        .filter(|(rows, _)| rows.len() < 2)
+        .map(|(rows, name)| format!("'{name}' has {}", count_of(rows.len(), "row")))
+        .collect();
+    if !small.is_empty() {
+        return Err(Error::input(format!(
+            "too few rows to split by class: {}; with a test file every class needs at least \
+             2 rows (one each for training and validation); add rows or remove the class",
+            small.join(", ")
+        )));
+    }
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let (mut train, mut valid) = (Vec::new(), Vec::new());
+    for mut rows in rows_of_class {
+        let n = rows.len();
+        let n_valid = ((n as f64 * valid_share).round() as usize).clamp(1, n - 1);
+        rows.shuffle(&mut rng);
+        valid.extend_from_slice(&rows[..n_valid]);
+        train.extend_from_slice(&rows[n_valid..]);
+    }
+    train.sort_unstable();
+    valid.sort_unstable();
+    Ok((train, valid))
+}
+
 /// Refuses classes with fewer than [`MIN_ROWS_PER_CLASS`] rows, naming all of them.
 fn check_class_sizes(rows_of_class: &[Vec<usize>], class_names: &[String]) -> Result<()> {
     let small: Vec<String> = rows_of_class
@@ -144,6 +190,22 @@ mod tests {
         };
         assert_eq!(part_sizes(4, &lopsided), (1, 1, 2));
         assert_eq!(part_sizes(3, &lopsided), (1, 1, 1));
+    }
+
+    #[test]
+    fn train_valid_split_keeps_a_row_of_each_class_in_both_parts() {
+        let names: Vec<String> = ["a", "b"].iter().map(|s| s.to_string()).collect();
+        let labels = [0, 0, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1];
+        let (train, valid) = split_train_valid(&labels, &names, 0.2, 3).expect("splits");
+        assert_eq!((train.len(), valid.len()), (9, 3));
+        let mut all = [train.clone(), valid.clone()].concat();
+        all.sort_unstable();
+        assert_eq!(all, (0..12).collect::<Vec<_>>());
+        assert!(valid.iter().any(|&r| r < 2) && train.iter().any(|&r| r < 2));
+        let again = split_train_valid(&labels, &names, 0.2, 3).expect("splits");
+        assert_eq!(again, (train, valid));
+        let error = split_train_valid(&[0, 1, 1], &names, 0.2, 3).expect_err("one row of a");
+        assert!(error.to_string().contains("'a' has 1 row"), "{error}");
     }
 
     #[test]

@@ -90,6 +90,7 @@ pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
                 epochs: record.epochs,
                 best_epoch: record.best_epoch,
                 message: None,
+                folds: None,
             });
         }
     }

@@ -245,6 +245,11 @@ pub fn test_section(input: &ReportInput, summary: &ReportSummary) -> String {
         })
         .collect();
     out.push_str(&table(&head, &rows));
+    for record in &t.records {
+        if let Some(report) = &record.final_evaluation {
+            out.push_str(&super::html_verdict::final_evaluation(&record.run, report));
+        }
+    }
     out
 }
 

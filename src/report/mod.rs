@@ -14,6 +14,7 @@ mod html_comparison;
 mod html_details;
 mod html_page;
 mod html_results;
+mod html_verdict;
 mod input;
 mod plot_candidates;
 mod plot_frame;
@@ -104,15 +105,17 @@ pub fn write_report(dir: &Path, out: Option<&Path>) -> Result<ReportFiles> {
     Ok(files)
 }
 
-const CONTENTS: [(&str, &str); 8] = [
+const CONTENTS: [(&str, &str); 10] = [
     ("searched", "What was searched"),
     ("results", "Results"),
+    ("verdict", "Verdict and baselines"),
     ("plots", "Plots"),
     ("architecture", "Best architecture"),
     ("lineage", "Lineage"),
     ("pareto", "Pareto-optimal candidates"),
     ("test-split", "Test split"),
     ("reproducibility", "Reproducibility"),
+    ("caution", "Caution"),
 ];
 
 fn lede(input: &ReportInput, summary: &ReportSummary) -> String {
@@ -173,6 +176,11 @@ fn html_report(input: &ReportInput, summary: &ReportSummary, figures: &ReportFig
     results.push_str(&html_results::results_section(input, summary));
     body.push_str(&section("results", "Results", &results));
     body.push_str(&section(
+        "verdict",
+        "Verdict and baselines",
+        &html_verdict::verdict_section(summary),
+    ));
+    body.push_str(&section(
         "plots",
         "Plots",
         &plots_body(figures, &summary.objective),
@@ -201,6 +209,11 @@ fn html_report(input: &ReportInput, summary: &ReportSummary, figures: &ReportFig
         "reproducibility",
         "Reproducibility",
         &html_details::reproducibility_section(summary),
+    ));
+    body.push_str(&section(
+        "caution",
+        "Caution",
+        &html_verdict::caution_section(),
     ));
     let name = input
         .dir

@@ -103,6 +103,9 @@ pub struct RunFacts {
     pub timed_evaluations: u64,
     /// How often the run's test split was opened.
     pub test_openings: u64,
+    /// How candidates were scored, the pick, the baselines and the pick's
+    /// paired difference over the linear baseline.
+    pub verdict: crate::search::RunVerdict,
     /// Problems met reading the journal.
     pub warnings: Vec<String>,
 }
@@ -173,6 +176,10 @@ pub struct OpeningFacts {
     pub test_rows: Option<u64>,
     /// Test scores by name.
     pub test_scores: BTreeMap<String, f64>,
+    /// The whole final evaluation (per-class results, the linear baseline in
+    /// the same opening, McNemar), when the record was made by a gemmule that
+    /// wrote them.
+    pub final_evaluation: Option<crate::workflow::FinalReport>,
 }
 
 /// What is needed to repeat the search and judge the result.

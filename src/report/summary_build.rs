@@ -125,6 +125,7 @@ fn run_facts(run: &ReportRun) -> RunFacts {
             .filter(|r| finished.contains_key(&r.index))
             .count() as u64,
         test_openings: run.journal.openings.len() as u64,
+        verdict: crate::search::RunVerdict::new(&run.journal, None),
         warnings: run.journal.warnings.clone(),
     }
 }
@@ -178,11 +179,17 @@ fn test_split(runs: &[ReportRun]) -> TestSplitFacts {
                 .unwrap_or_default();
             records.push(OpeningFacts {
                 run: run.name.clone(),
-                opening: position as u64 + 1,
+                opening: body
+                    .get("opening")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(position as u64 + 1),
                 index: body.get("index").and_then(Value::as_u64),
                 id: body.get("id").and_then(Value::as_str).map(String::from),
                 test_rows: body.get("test_rows").and_then(Value::as_u64),
                 test_scores,
+                final_evaluation: crate::workflow::FinalReport::from_opening(body)
+                    .ok()
+                    .filter(|report| report.class_report.is_some()),
             });
         }
     }

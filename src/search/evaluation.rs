@@ -45,6 +45,47 @@ pub struct Evaluation {
     /// A short explanation for `Failed` or `OverBudget`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub message: Option<String>,
+    /// Every fold of a k-fold evaluation (`None` for a single validation
+    /// split): then `objective` and `scores` are the means over the folds,
+    /// `epochs` the epochs trained in all folds together and `best_epoch`
+    /// the folds' mean best epoch, rounded.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub folds: Option<FoldScores>,
+}
+
+/// The result of one fold of a k-fold evaluation: trained on the other
+/// folds, scored on this one.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FoldResult {
+    /// How this fold's training ended.
+    pub status: EvalStatus,
+    /// The objective on the held-out fold (`None` when not scored).
+    pub objective: Option<f64>,
+    /// All scores on the held-out fold by name.
+    pub scores: BTreeMap<String, f64>,
+    /// Epochs trained.
+    pub epochs: u32,
+    /// Best epoch by the watched validation quantity (1-based).
+    pub best_epoch: u32,
+}
+
+/// The folds of a k-fold evaluation.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FoldScores {
+    /// Folds scored (the K of K-fold cross-validation).
+    pub k: u32,
+    /// Standard error of the mean objective over the folds (sample standard
+    /// deviation / √K); `None` when fewer than two folds were scored.
+    pub standard_error: Option<f64>,
+    /// Each fold's result, fold 1 first.
+    pub each: Vec<FoldResult>,
+}
+
+impl FoldScores {
+    /// The per-fold objectives, `None` where a fold was not scored.
+    pub fn objectives(&self) -> Vec<Option<f64>> {
+        self.each.iter().map(|fold| fold.objective).collect()
+    }
 }
 
 /// Scores genomes. Implementations must be deterministic in (`genome`, `seed`)

@@ -15,7 +15,7 @@
 
 use super::journal_read::parse_journal;
 use super::lock::RunLock;
-use super::records::{EvaluationRecord, RunHeader};
+use super::records::{BaselineRecord, EvaluationRecord, RunHeader};
 use crate::fsio::{create_new_atomic, open_no_follow, remove_stale_temps};
 use crate::{Error, Result};
 use serde::{de::DeserializeOwned, Serialize};
@@ -35,6 +35,8 @@ pub struct JournalContents<G = serde_json::Value> {
     pub evaluations: Vec<EvaluationRecord<G>>,
     /// Bodies of the test-opening records, in order.
     pub openings: Vec<serde_json::Value>,
+    /// Baseline records (runs made before baselines existed have none).
+    pub baselines: Vec<BaselineRecord>,
     /// Problems that were tolerated (an incomplete last line).
     pub warnings: Vec<String>,
     /// Length in bytes of the intact part (everything before a torn last line).
@@ -176,6 +178,12 @@ impl Journal {
             sink,
             len: intact_len,
         })
+    }
+
+    /// Appends one baseline record.
+    pub fn append_baseline(&mut self, record: &BaselineRecord) -> Result<()> {
+        let what = format!("baseline record {}", record.name);
+        self.append("baseline", record, &what)
     }
 
     /// Appends one evaluation record.

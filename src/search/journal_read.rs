@@ -1,7 +1,7 @@
 //! Parsing and checking a journal's bytes.
 
 use super::journal::JournalContents;
-use super::records::{EvaluationRecord, RunHeader, JOURNAL_FORMAT, TOOL_VERSION};
+use super::records::{BaselineRecord, EvaluationRecord, RunHeader, JOURNAL_FORMAT, TOOL_VERSION};
 use crate::{Error, Result};
 use serde::de::DeserializeOwned;
 use serde_json::Value;
@@ -55,6 +55,7 @@ struct Reader<'p, G> {
     header: Option<RunHeader>,
     evaluations: Vec<EvaluationRecord<G>>,
     openings: Vec<Value>,
+    baselines: Vec<BaselineRecord>,
 }
 
 impl<G: DeserializeOwned> Reader<'_, G> {
@@ -89,6 +90,12 @@ impl<G: DeserializeOwned> Reader<'_, G> {
                     return Err(self.damaged(number, what));
                 }
                 self.evaluations.push(record);
+                Ok(())
+            }
+            ("baseline", Some(_)) => {
+                let record: BaselineRecord = serde_json::from_value(value)
+                    .map_err(|e| self.damaged(number, format!("bad baseline record ({e})")))?;
+                self.baselines.push(record);
                 Ok(())
             }
             ("test_opening", Some(_)) => {
@@ -135,6 +142,7 @@ pub(crate) fn parse_journal<G: DeserializeOwned>(
         header: None,
         evaluations: Vec::new(),
         openings: Vec::new(),
+        baselines: Vec::new(),
     };
     let mut warnings = Vec::new();
     let mut intact_len = 0;
@@ -165,6 +173,7 @@ pub(crate) fn parse_journal<G: DeserializeOwned>(
         header,
         evaluations: reader.evaluations,
         openings: reader.openings,
+        baselines: reader.baselines,
         warnings,
         intact_len: intact_len as u64,
     })

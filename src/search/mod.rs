@@ -6,12 +6,14 @@
 //! and `lock` (the owner's pid while a process works on the run).
 
 mod aging;
+mod baseline_gap;
 mod budget;
 mod evaluation;
 mod journal;
 mod journal_read;
 mod lock;
 mod observer;
+mod pick;
 mod plan;
 mod pool;
 mod random;
@@ -22,16 +24,23 @@ pub mod seeds;
 mod strategy;
 mod summary;
 mod timings;
+mod verdict;
 
 pub use aging::{AgingEvolution, AgingSettings};
+pub use baseline_gap::BaselineGap;
 pub use budget::{default_population, default_sample_size, Budget};
-pub use evaluation::{EvalStatus, Evaluation, Evaluator};
+pub use evaluation::{EvalStatus, Evaluation, Evaluator, FoldResult, FoldScores};
 pub use journal::{plain_sink, Journal, JournalContents, JournalSink, SinkFactory, JOURNAL_FILE};
 pub use lock::{RunLock, LOCK_FILE};
 pub use observer::{QuietObserver, SearchObserver};
+pub use pick::{pick, PickRule, Picked};
 pub use plan::{check_same_run, SearchPlan};
 pub use random::RandomSampling;
-pub use records::{EvaluationRecord, RunHeader, StrategyInfo, JOURNAL_FORMAT, TOOL_VERSION};
+pub use records::storable;
+pub use records::{
+    BaselineRecord, EvaluationRecord, RunHeader, StrategyInfo, JOURNAL_FORMAT, LINEAR_BASELINE,
+    MAJORITY_BASELINE, TOOL_VERSION,
+};
 pub use run::{
     resume_search, resume_search_with_sink, run_search, run_search_with_sink, SearchContext,
     SearchEnding, SearchOutcome,
@@ -39,3 +48,4 @@ pub use run::{
 pub use strategy::{compare_objectives, Proposal, Strategy};
 pub use summary::RunSummary;
 pub use timings::{TimingEntry, TimingLog, TIMINGS_FILE};
+pub use verdict::{GapSummary, RunVerdict, VerdictEntry};

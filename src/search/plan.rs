@@ -2,7 +2,9 @@
 //! header blocks, and how a resumed run is matched against its journal.
 
 use super::budget::Budget;
-use super::records::{RunHeader, StrategyInfo, JOURNAL_FORMAT, SESSION_FIELDS, TOOL_VERSION};
+use super::records::{
+    BaselineRecord, RunHeader, StrategyInfo, JOURNAL_FORMAT, SESSION_FIELDS, TOOL_VERSION,
+};
 use super::scheduler::proposal_lag;
 use crate::{Error, Result};
 use serde_json::Value;
@@ -23,6 +25,10 @@ pub struct SearchPlan {
     pub data: Value,
     /// The trainer's settings, for the header.
     pub trainer: Value,
+    /// Baselines scored on the same split or folds, journaled right after
+    /// the header of a new run (and of a resumed run whose journal has no
+    /// evaluation and no baseline yet); empty for none.
+    pub baselines: Vec<BaselineRecord>,
 }
 
 impl SearchPlan {
@@ -123,6 +129,7 @@ mod tests {
             space: json!({"width": 3}),
             data: json!({"fingerprint": "abc"}),
             trainer: json!({}),
+            baselines: Vec::new(),
         }
     }
 

@@ -206,6 +206,7 @@ fn failed(payload: &(dyn Any + Send)) -> Evaluation {
         epochs: 0,
         best_epoch: 0,
         message: Some(format!("the evaluator panicked: {text}")),
+        folds: None,
     }
 }
 
@@ -239,6 +240,7 @@ mod tests {
                 epochs: 1,
                 best_epoch: 1,
                 message: None,
+                folds: None,
             }
         }
     }

@@ -1,7 +1,7 @@
 //! The records of a run journal (one JSON object per line, tagged by `"kind"`).
 
 use super::budget::Budget;
-use super::evaluation::{EvalStatus, Evaluation};
+use super::evaluation::{EvalStatus, Evaluation, FoldScores};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -94,6 +94,9 @@ pub struct EvaluationRecord<G> {
     pub best_epoch: u32,
     /// Explanation for failures, over-budget candidates and dropped values.
     pub message: Option<String>,
+    /// Every fold of a k-fold evaluation; absent for a single validation split.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub folds: Option<FoldScores>,
 }
 
 impl<G> EvaluationRecord<G> {
@@ -108,9 +111,35 @@ impl<G> EvaluationRecord<G> {
             epochs: self.epochs,
             best_epoch: self.best_epoch,
             message: self.message.clone(),
+            folds: self.folds.clone(),
         }
     }
 }
+
+/// A reference model scored on the same validation split or folds as the
+/// candidates (`"kind":"baseline"`), written right after the header. Not a
+/// candidate: it is not in the budget, the strategy never sees it, and no
+/// pick can choose it; it is there to say whether the search beat a simple
+/// model.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BaselineRecord {
+    /// Which baseline ([`MAJORITY_BASELINE`] or [`LINEAR_BASELINE`]).
+    pub name: String,
+    /// The trained model's genome (the linear baseline's); `None` for the
+    /// majority class, which trains nothing.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub genome: Option<serde_json::Value>,
+    /// Its scores, exactly as a candidate's.
+    #[serde(flatten)]
+    pub evaluation: Evaluation,
+}
+
+/// The baseline that predicts the most frequent training class, with the
+/// training class shares as probabilities.
+pub const MAJORITY_BASELINE: &str = "majority_class";
+/// The baseline with no hidden layer: multinomial logistic regression on the
+/// encoded features, trained by the same trainer as every candidate.
+pub const LINEAR_BASELINE: &str = "linear";
 
 /// Makes an evaluation storable in JSON, which has no NaN or infinity.
 ///
@@ -130,6 +159,24 @@ pub fn storable(mut evaluation: Evaluation) -> Evaluation {
         }
         keep
     });
+    if let Some(folds) = &mut evaluation.folds {
+        if folds.standard_error.is_some_and(|se| !se.is_finite()) {
+            folds.standard_error = None;
+        }
+        for (number, fold) in folds.each.iter_mut().enumerate() {
+            if let Some(value) = fold.objective.filter(|value| !value.is_finite()) {
+                dropped.push(format!("fold {} objective={value}", number + 1));
+                fold.objective = None;
+            }
+            fold.scores.retain(|name, value| {
+                let keep = value.is_finite();
+                if !keep {
+                    dropped.push(format!("fold {} {name}={value}", number + 1));
+                }
+                keep
+            });
+        }
+    }
     if !dropped.is_empty() {
         let note = format!("non-finite values dropped: {}", dropped.join(", "));
         evaluation.message = Some(match evaluation.message {
@@ -160,6 +207,7 @@ mod tests {
             epochs: 2,
             best_epoch: 1,
             message: None,
+            folds: None,
         };
         let stored = storable(evaluation);
         assert_eq!(stored.objective, None);

@@ -89,7 +89,10 @@ where
     std::fs::create_dir_all(run_dir).map_err(|e| Error::io(run_dir, e))?;
     let (_lock, warning) = RunLock::acquire(run_dir)?;
     let header = plan.header(context.strategy.name(), context.strategy.settings());
-    let journal = Journal::create_with(run_dir, &header, wrap)?;
+    let mut journal = Journal::create_with(run_dir, &header, wrap)?;
+    for baseline in &plan.baselines {
+        journal.append_baseline(baseline)?;
+    }
     let files = SessionFiles {
         lag: header.lag(),
         journal,
@@ -162,9 +165,17 @@ where
         .map_err(|e| Error::input(format!("{}: {e}", path.display())))?;
     let mut warnings: Vec<String> = warning.into_iter().collect();
     warnings.extend(contents.warnings);
+    let mut journal = Journal::reopen_with(run_dir, contents.intact_len, wrap)?;
+    if contents.baselines.is_empty() && contents.evaluations.is_empty() {
+        // Killed between the header and the baselines: write them now, as
+        // the uninterrupted run did.
+        for baseline in &plan.baselines {
+            journal.append_baseline(baseline)?;
+        }
+    }
     let files = SessionFiles {
         lag: contents.header.lag(),
-        journal: Journal::reopen_with(run_dir, contents.intact_len, wrap)?,
+        journal,
         timings: TimingLog::open(run_dir)?,
         replay: contents.evaluations,
         written_by: contents.header.tool_version,

@@ -321,6 +321,7 @@ where
             epochs: evaluation.epochs,
             best_epoch: evaluation.best_epoch,
             message: evaluation.message.clone(),
+            folds: evaluation.folds.clone(),
         };
         self.context
             .strategy

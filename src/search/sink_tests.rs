@@ -78,6 +78,7 @@ impl Evaluator<Vec<u8>> for CountOnes {
             epochs: 1,
             best_epoch: 1,
             message: None,
+            folds: None,
         }
     }
 }
@@ -124,6 +125,7 @@ fn plan(jobs: usize) -> SearchPlan {
         space: TinySpace.describe(),
         data: serde_json::json!({ "fingerprint": "tiny" }),
         trainer: serde_json::json!({}),
+        baselines: Vec::new(),
     }
 }
 

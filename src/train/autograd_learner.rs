@@ -6,7 +6,8 @@ use candle_core::{Device, Tensor, Var};
 use rand::RngCore;
 
 use super::fast_mlp::PhaseTimes;
-use super::gradients::{gradients_of_logits, variable_tensors};
+use super::gradients::{gradients_of_logits, row_weights, variable_tensors};
+use super::input_checks::check_class_weights;
 use super::learner::{Learner, Snapshot};
 use super::optimizer::OptimizerState;
 use crate::genome::TrainGenes;
@@ -74,12 +75,14 @@ impl AutogradNetwork for Mlp {
 }
 
 /// Trains an [`AutogradNetwork`]: candle autograd for the gradients of the
-/// mean softmax cross-entropy, then the genome's optimiser
+/// mean (or class-weighted mean) softmax cross-entropy, then the genome's optimiser
 /// ([`OptimizerState`], fused in place on the variables' storage).
 pub struct AutogradLearner<N: AutogradNetwork> {
     network: N,
     variables: Vec<Var>,
     optimizer: OptimizerState,
+    /// Per-class weights of the training loss ([`Learner::set_class_weights`]).
+    class_weights: Option<Vec<f32>>,
     timing: Option<PhaseTimes>,
 }
 
@@ -94,6 +97,7 @@ impl<N: AutogradNetwork> AutogradLearner<N> {
             network,
             variables,
             optimizer,
+            class_weights: None,
             timing: None,
         })
     }
@@ -149,11 +153,15 @@ impl<N: AutogradNetwork> Learner for AutogradLearner<N> {
     ) -> Result<f32> {
         let started = Instant::now();
         let input = self.input_tensor(x, rows)?;
+        let weights = match &self.class_weights {
+            Some(class_weights) => Some(row_weights(labels, class_weights)?),
+            None => None,
+        };
         let labels = Tensor::from_slice(labels, labels.len(), &Device::Cpu)?;
         let logits = self.network.forward(&input, true, rng)?;
         let forward_done = Instant::now();
         let parameters = variable_tensors(&self.variables);
-        let gradients = gradients_of_logits(&logits, &labels, &parameters)?;
+        let gradients = gradients_of_logits(&logits, &labels, weights.as_deref(), &parameters)?;
         let backward_done = Instant::now();
         if gradients.loss.is_finite() {
             self.optimizer.step(&parameters, &gradients.tensors)?;
@@ -165,6 +173,14 @@ impl<N: AutogradNetwork> Learner for AutogradLearner<N> {
             timing.steps += 1;
         }
         Ok(gradients.loss)
+    }
+
+    fn set_class_weights(&mut self, weights: Option<&[f32]>) -> Result<()> {
+        if let Some(weights) = weights {
+            check_class_weights(weights, self.network.n_classes())?;
+        }
+        self.class_weights = weights.map(<[f32]>::to_vec);
+        Ok(())
     }
 
     fn logits(&mut self, x: &[f32], rows: usize) -> Result<Vec<f32>> {

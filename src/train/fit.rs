@@ -6,7 +6,7 @@ use super::evaluate::{mean_cross_entropy, softmax_rows};
 use super::input_checks::check_inputs;
 use super::learner::{Learner, Snapshot};
 use super::scores::{score, Scores};
-use super::settings::{TrainSettings, TrainStatus};
+use super::settings::{TrainSettings, TrainStatus, Watch};
 use super::streams::dropout_stream;
 use crate::data::Dataset;
 use crate::net::seeded_rng;
@@ -28,17 +28,35 @@ pub struct FitOutcome {
     /// 1-based epoch whose weights the learner holds (see
     /// [`TrainOutcome::best_epoch`](super::TrainOutcome::best_epoch)).
     pub best_epoch: u32,
-    /// Mean training-batch loss of each completed epoch, in order.
+    /// Mean training-batch loss of each completed epoch, in order (each
+    /// batch's loss counted by its row count; with class weights, each
+    /// batch's loss is its weighted mean).
     pub epoch_losses: Vec<f64>,
     /// Why training was cut, when `status` is [`TrainStatus::CurveCut`].
     pub cut: Option<CutVerdict>,
 }
 
-/// The best epoch so far by validation loss, with its weights.
+/// The best epoch so far by what [`TrainSettings::watch`] follows, with its weights.
 struct BestEpoch {
     epoch: u32,
     loss: f64,
+    /// The watched objective's value (NaN counted as −∞); `None` when the
+    /// loss is watched.
+    objective: Option<f64>,
     weights: Snapshot,
+}
+
+impl BestEpoch {
+    /// True when an epoch with validation `loss` and watched `objective`
+    /// beats this one: a lower loss when the loss is watched; otherwise a
+    /// higher objective, or an equal one with a lower loss. A tie keeps the
+    /// earlier epoch.
+    fn beaten_by(&self, objective: Option<f64>, loss: f64) -> bool {
+        match (objective, self.objective) {
+            (Some(new), Some(old)) => new > old || (new == old && loss < self.loss),
+            _ => loss < self.loss,
+        }
+    }
 }
 
 /// Trains `learner` on `train` for up to `settings.max_epochs` epochs of
@@ -46,15 +64,22 @@ struct BestEpoch {
 ///
 /// Each epoch visits the rows in a seeded order drawn from the seed and the
 /// epoch number and draws dropout masks from the epoch's own stream, so an
-/// epoch's randomness depends only on the seed and the epoch number. After
-/// each epoch the validation loss (mean cross-entropy) is computed; after
-/// `patience` epochs without a lower one training stops early. When
-/// validation data is given the learner ends holding the weights of the best
-/// epoch. A NaN or infinite batch loss, weight or validation loss stops
-/// training with [`TrainStatus::Diverged`] (never an error).
+/// epoch's randomness depends only on the seed and the epoch number. The
+/// training loss is the mean cross-entropy, weighted by class when
+/// [`TrainSettings::class_weights`] is set. After each epoch the validation
+/// loss (always the unweighted mean cross-entropy) is computed, and with
+/// [`Watch::Objective`] the validation split is also scored. After
+/// `patience` epochs without improvement of what [`TrainSettings::watch`]
+/// follows (a lower loss; or a higher objective, ties broken by a lower
+/// loss) training stops early. When validation data is given the learner
+/// ends holding the weights of the best epoch by the same rule (ties keep
+/// the earlier epoch). A NaN or infinite batch loss, weight or validation
+/// loss stops training with [`TrainStatus::Diverged`] (never an error).
 ///
 /// Errors: [`Error::Input`](crate::Error::Input) for `max_epochs` 0, an
-/// empty set, or data whose sizes disagree with each other or the learner.
+/// empty set, data whose sizes disagree with each other or the learner,
+/// class weights that are not one finite positive number per class, or
+/// class weights for a learner that cannot use them.
 pub fn fit(
     learner: &mut dyn Learner,
     train: &Dataset,
@@ -94,13 +119,18 @@ pub fn fit_with_cut(
             train.len()
         )));
     }
+    learner.set_class_weights(settings.class_weights.as_deref())?;
+    let watched_objective = match settings.watch {
+        Watch::Loss => None,
+        Watch::Objective(objective) => Some(objective),
+    };
     let mut batches = Batches::new(train);
     let mut status = TrainStatus::Completed;
     let mut epochs_run = 0;
     let mut best: Option<BestEpoch> = None;
     let mut epochs_without_improvement = 0;
     let mut epoch_losses = Vec::new();
-    let mut watch = cut.map(|cut| CurveWatch::new(cut, settings.max_epochs));
+    let mut curve = cut.map(|cut| CurveWatch::new(cut, settings.max_epochs));
     let mut verdict = None;
     let mut logits = Vec::new();
     let mut probabilities = Vec::new();
@@ -136,20 +166,33 @@ pub fn fit_with_cut(
             status = TrainStatus::Diverged;
             break;
         }
-        let cut_now = match watch.as_mut() {
-            Some(watch) => {
-                probabilities.clear();
-                probabilities.extend_from_slice(&logits);
-                softmax_rows(&mut probabilities, valid.n_classes);
-                watch.after_epoch(&score(&probabilities, &valid.y, valid.n_classes))
-            }
-            None => None,
+        // Scores only when something reads them, so the default path does no extra work.
+        let epoch_scores = (curve.is_some() || watched_objective.is_some()).then(|| {
+            probabilities.clear();
+            probabilities.extend_from_slice(&logits);
+            softmax_rows(&mut probabilities, valid.n_classes);
+            score(&probabilities, &valid.y, valid.n_classes)
+        });
+        let cut_now = match (curve.as_mut(), &epoch_scores) {
+            (Some(curve), Some(scores)) => curve.after_epoch(scores),
+            _ => None,
         };
-        if best.as_ref().is_none_or(|b| loss < b.loss) {
+        let objective = watched_objective
+            .zip(epoch_scores)
+            .map(|(objective, scores)| {
+                let value = objective.value(&scores);
+                if value.is_nan() {
+                    f64::NEG_INFINITY
+                } else {
+                    value
+                }
+            });
+        if best.as_ref().is_none_or(|b| b.beaten_by(objective, loss)) {
             let weights = learner.snapshot()?;
             best = Some(BestEpoch {
                 epoch,
                 loss,
+                objective,
                 weights,
             });
             epochs_without_improvement = 0;

@@ -4,7 +4,7 @@ use super::settings::TrainSettings;
 use crate::data::Dataset;
 use crate::{Error, Result};
 
-/// Checks epochs, both datasets and their agreement with each other and with
+/// Checks epochs, class weights, both datasets and their agreement with each other and with
 /// a network of `n_inputs` features and `n_classes` classes.
 pub(crate) fn check_inputs(
     train: &Dataset,
@@ -25,6 +25,9 @@ pub(crate) fn check_inputs(
                 valid.n_features, valid.n_classes, train.n_features, train.n_classes
             )));
         }
+    }
+    if let Some(weights) = &settings.class_weights {
+        check_class_weights(weights, n_classes)?;
     }
     if train.n_features != n_inputs || train.n_classes != n_classes {
         return Err(Error::input(format!(
@@ -62,6 +65,29 @@ pub(crate) fn check_dataset(role: &str, data: &Dataset) -> Result<()> {
         return Err(Error::input(format!(
             "the {role} set has class index {label}, out of range for {} classes",
             data.n_classes
+        )));
+    }
+    Ok(())
+}
+
+/// Checks class weights of the training loss: one per class, each finite and
+/// above 0 (a zero weight could leave a batch with no weight at all).
+pub(crate) fn check_class_weights(weights: &[f32], n_classes: usize) -> Result<()> {
+    if weights.len() != n_classes {
+        return Err(Error::input(format!(
+            "{} class weights were given for {n_classes} classes; give exactly one weight per \
+             class, in class-index order",
+            weights.len()
+        )));
+    }
+    if let Some((class, weight)) = weights
+        .iter()
+        .enumerate()
+        .find(|(_, w)| !w.is_finite() || **w <= 0.0)
+    {
+        return Err(Error::input(format!(
+            "the weight of class {class} is {weight}; class weights must be finite numbers \
+             above 0"
         )));
     }
     Ok(())

@@ -22,7 +22,8 @@ pub trait Learner {
 
     /// One optimiser step on a mini-batch of `rows` rows: forward in training
     /// mode (dropout masks drawn from `rng`), mean softmax cross-entropy
-    /// against `labels`, gradients, update. Returns the batch loss before
+    /// against `labels` (class-weighted after
+    /// [`set_class_weights`](Learner::set_class_weights)), gradients, update. Returns the batch loss before
     /// the update (NaN or infinite when training diverged; the update may
     /// then be skipped).
     fn train_step(
@@ -45,6 +46,25 @@ pub trait Learner {
 
     /// True when every parameter value is finite.
     fn all_finite(&self) -> Result<bool>;
+
+    /// Weights the training loss by class from now on: each later
+    /// [`train_step`](Learner::train_step) minimises Σ w_{y_i}·CE_i / Σ w_{y_i}
+    /// over its batch (see [`TrainSettings::class_weights`](super::TrainSettings::class_weights));
+    /// `None` goes back to the plain mean. [`fit`](super::fit) calls it once
+    /// before the first epoch with the settings' weights.
+    ///
+    /// The default accepts `None` only and refuses weights with an
+    /// [`Error::Input`], so a learner that does not implement weighting never
+    /// ignores them silently; a wrapper around another learner should
+    /// forward this call.
+    fn set_class_weights(&mut self, weights: Option<&[f32]>) -> Result<()> {
+        match weights {
+            None => Ok(()),
+            Some(_) => Err(Error::input(
+                "this kind of network cannot train with class weights yet; train it without them",
+            )),
+        }
+    }
 
     /// The fewest rows a training mini-batch may have (default 1). The epoch
     /// loop skips a smaller last batch; its rows land in other batches in

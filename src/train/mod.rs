@@ -45,13 +45,13 @@ pub use curve_cut::{first_cut_epoch, CurveCut, CurveWatch, CutVerdict, SLOPE_WIN
 pub(crate) use evaluate::softmax_rows;
 pub use fast_mlp::{matmul_row_major, FastMlpLearner, PhaseTimes};
 pub use fit::{fit, fit_with_cut, FitOutcome};
-pub use gradients::{compute_gradients, Gradients};
+pub use gradients::{compute_gradients, compute_weighted_gradients, Gradients};
 pub use learner::{Learner, Snapshot};
 pub use model::TrainedModel;
 pub use objective::Objective;
 pub use optimizer::OptimizerState;
 pub(crate) use scores::argmax_lowest_on_ties;
 pub use scores::{score, Scores};
-pub use settings::{TrainOutcome, TrainSettings, TrainStatus};
+pub use settings::{TrainOutcome, TrainSettings, TrainStatus, Watch};
 pub use sgd::{sgd_momentum_step, SGD_MOMENTUM};
 pub use trainer::{train, train_with_cut, train_with_engine, TrainEngine};

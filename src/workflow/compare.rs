@@ -8,7 +8,7 @@
 //! starts the rest. Finished journals are never touched.
 
 use super::compare_plan::{ComparePlan, PlannedRun};
-use super::search_job::{resume_job, SearchJob};
+use super::search_job::{resume_job, FoldChoice, SearchJob};
 use crate::genome::AnyGenome;
 use crate::search::{
     Journal, JournalContents, QuietObserver, SearchEnding, SearchObserver, SearchOutcome,
@@ -186,8 +186,20 @@ impl Comparison {
         if recorded.space != expected.space {
             return mismatch("search space");
         }
-        if recorded.trainer != expected.trainer {
+        // The fold count is decided with the data when a run starts (and
+        // recorded); the plan holds the choice that decided it.
+        let mut recorded_trainer = recorded.trainer.clone();
+        let folds = recorded_trainer.folds.take();
+        if recorded_trainer != expected.trainer {
             return mismatch("trainer settings");
+        }
+        let folds_match = match expected.folds {
+            FoldChoice::Auto => true,
+            FoldChoice::Off => folds.is_none(),
+            FoldChoice::Exactly(k) => folds == Some(k),
+        };
+        if !folds_match {
+            return mismatch("k-fold setting");
         }
         if recorded.source != expected.source {
             return mismatch("data source");

@@ -7,7 +7,7 @@
 //! plan against the recorded one and continues where it stopped.
 
 use super::data_source::DataSource;
-use super::search_job::{SearchJob, StrategyChoice};
+use super::search_job::{FoldChoice, SearchJob, StrategyChoice};
 use crate::evaluate::TrainerSettings;
 use crate::genome::AnySpace;
 use crate::search::{AgingSettings, Budget};
@@ -83,6 +83,16 @@ pub struct ComparePlan {
     pub space: AnySpace,
     /// How candidates are trained and ranked.
     pub trainer: TrainerSettings,
+    /// Whether candidates are scored by k-fold cross-validation (plans
+    /// written before k-fold scoring existed read as `off`).
+    #[serde(default = "folds_of_older_plans")]
+    pub folds: FoldChoice,
+}
+
+/// The fold choice of a plan that does not name one: written by a gemmule
+/// that scored every candidate on one validation split.
+fn folds_of_older_plans() -> FoldChoice {
+    FoldChoice::Off
 }
 
 /// What `comparison.json` holds: the format, the plan and (for readers) the run list.
@@ -115,9 +125,16 @@ impl ComparePlan {
             data_fingerprint,
             space: space.into(),
             trainer,
+            folds: FoldChoice::Auto,
         };
         plan.check()?;
         Ok(plan)
+    }
+
+    /// Sets whether candidates are scored by k-fold cross-validation.
+    pub fn with_folds(mut self, folds: FoldChoice) -> Self {
+        self.folds = folds;
+        self
     }
 
     /// Checks the plan is usable: strategies and seeds non-empty and distinct,
@@ -168,6 +185,7 @@ impl ComparePlan {
             .space(self.space.clone())
             .strategy(run.strategy.choice(self.evaluations))
             .trainer(self.trainer.clone())
+            .folds(self.folds)
             .seed(run.seed)
             .jobs(self.jobs)
             .evaluations(self.evaluations)

@@ -5,7 +5,7 @@ use crate::data::image::{
     prepare_images, read_idx, read_image_folder, read_pixel_csv, ImageFolderOptions, ImageShape,
     ImageTable,
 };
-use crate::data::{prepare, CsvOptions, SplitFractions};
+use crate::data::{prepare_with, CsvOptions, Partition, SplitFractions, TableRoles};
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
@@ -48,7 +48,12 @@ impl DataFormat {
 
 /// A data file (or image folder) and the options that turn it into sealed,
 /// prepared splits.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+///
+/// The column roles and the fixed test set (`id_columns`, `ignore_columns`,
+/// `test_data`, `split_column`) apply to tables; each is left out of the JSON
+/// when unset, so journals and comparison plans of sources without them keep
+/// their bytes.
+#[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct DataSource {
     /// The CSV file, image folder or IDX images file, as the user named it.
@@ -66,6 +71,59 @@ pub struct DataSource {
     pub fractions: SplitFractions,
     /// Seed of the stratified split.
     pub split_seed: u64,
+    /// Identifier columns of a table (`--id`), in order: not features, carried
+    /// beside every prediction and every test row.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub id_columns: Vec<String>,
+    /// Columns of a table left out of the features (`--ignore`).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub ignore_columns: Vec<String>,
+    /// A CSV file with the same columns whose rows are the test part
+    /// (`--test-data`); the data is then split into training and validation
+    /// only (see [`Partition::TestFile`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub test_data: Option<PathBuf>,
+    /// A column of the table whose values `train`, `validation`, `test` assign
+    /// the rows (`--split-column`, see [`Partition::Column`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub split_column: Option<String>,
+    /// The SHA-256 of the test file recorded in a run's journal header (set by
+    /// [`DataSource::from_header_block`]): [`DataSource::prepare`] then refuses
+    /// a test file with other bytes. A check, not a setting: it is not part of
+    /// the source's JSON (the header's data block holds it as
+    /// `test_fingerprint`) and `==` ignores it.
+    #[serde(skip)]
+    pub recorded_test_fingerprint: Option<String>,
+}
+
+impl PartialEq for DataSource {
+    fn eq(&self, other: &Self) -> bool {
+        let DataSource {
+            path,
+            format,
+            label,
+            delimiter,
+            impute,
+            fractions,
+            split_seed,
+            id_columns,
+            ignore_columns,
+            test_data,
+            split_column,
+            recorded_test_fingerprint: _,
+        } = self;
+        *path == other.path
+            && *format == other.format
+            && *label == other.label
+            && *delimiter == other.delimiter
+            && *impute == other.impute
+            && *fractions == other.fractions
+            && *split_seed == other.split_seed
+            && *id_columns == other.id_columns
+            && *ignore_columns == other.ignore_columns
+            && *test_data == other.test_data
+            && *split_column == other.split_column
+    }
 }
 
 impl DataSource {
@@ -80,7 +138,40 @@ impl DataSource {
             impute: false,
             fractions: SplitFractions::default(),
             split_seed: 0,
+            id_columns: Vec::new(),
+            ignore_columns: Vec::new(),
+            test_data: None,
+            split_column: None,
+            recorded_test_fingerprint: None,
         }
+    }
+
+    /// The column roles and where the test rows come from; refuses
+    /// `test_data` together with `split_column`, and any of them for images.
+    pub fn table_roles(&self) -> Result<TableRoles> {
+        let partition = match (&self.test_data, &self.split_column) {
+            (Some(_), Some(_)) => {
+                return Err(Error::input(
+                    "--test-data and --split-column both fix the test rows; give one of them",
+                ))
+            }
+            (Some(file), None) => Partition::TestFile(file.clone()),
+            (None, Some(column)) => Partition::Column(column.clone()),
+            (None, None) => Partition::Stratified,
+        };
+        let roles = TableRoles {
+            ids: self.id_columns.clone(),
+            ignore: self.ignore_columns.clone(),
+            partition,
+        };
+        if self.is_images() && roles != TableRoles::default() {
+            return Err(Error::input(format!(
+                "{}: --id, --ignore, --test-data and --split-column apply to CSV tables, not \
+                 to images (an image's file or record identifies it in the test predictions)",
+                self.path.display()
+            )));
+        }
+        Ok(roles)
     }
 
     /// The CSV reading options.
@@ -153,19 +244,39 @@ impl DataSource {
     }
 
     /// Loads, splits (test sealed) and preprocesses the data.
+    ///
+    /// With a recorded test fingerprint (a source rebuilt from a journal
+    /// header), a test file whose bytes changed is refused.
     pub fn prepare(&self) -> Result<PreparedData> {
-        self.fractions.validate()?;
+        let roles = self.table_roles()?;
         if self.is_images() {
+            self.fractions.validate()?;
             let table = self.read_images()?;
             return Ok(prepare_images(&table, &self.fractions, self.split_seed)?.into());
         }
-        Ok(prepare(
+        let prepared = prepare_with(
             &self.path,
             &self.csv_options()?,
+            &roles,
             &self.fractions,
             self.split_seed,
-        )?
-        .into())
+        )?;
+        if let (Some(recorded), Some(now), Some(file)) = (
+            &self.recorded_test_fingerprint,
+            &prepared.info.test_fingerprint,
+            &self.test_data,
+        ) {
+            if recorded != now {
+                return Err(Error::input(format!(
+                    "{}: the test file (--test-data) changed since the run started (SHA-256 {} \
+                     now, {} in the journal); use the original test file",
+                    file.display(),
+                    &now[..now.len().min(12)],
+                    &recorded[..recorded.len().min(12)]
+                )));
+            }
+        }
+        Ok(prepared.into())
     }
 
     /// The journal header's `data` block: this source plus what was found in it.
@@ -177,6 +288,9 @@ impl DataSource {
             "rows": { "train": info.rows_train, "valid": info.rows_valid, "test": info.rows_test },
             "classes": info.class_names,
         });
+        if let Some(test_fingerprint) = &info.test_fingerprint {
+            block["test_fingerprint"] = serde_json::json!(test_fingerprint);
+        }
         match &prepared.preprocessor {
             InputPreprocessor::Table(p) => block["features"] = serde_json::json!(p.feature_names()),
             InputPreprocessor::Image(p) => {
@@ -192,11 +306,23 @@ impl DataSource {
             .get("source")
             .cloned()
             .ok_or_else(|| Error::input("the journal header's data block has no `source`"))?;
-        let source: DataSource = serde_json::from_value(source).map_err(|e| {
+        let mut source: DataSource = serde_json::from_value(source).map_err(|e| {
             Error::input(format!(
                 "the journal header's data source is unreadable: {e}"
             ))
         })?;
+        if source.test_data.is_some() {
+            let recorded = block
+                .get("test_fingerprint")
+                .and_then(|f| f.as_str())
+                .ok_or_else(|| {
+                    Error::input(
+                        "the journal header's data block names a test file but has no \
+                         `test_fingerprint`",
+                    )
+                })?;
+            source.recorded_test_fingerprint = Some(recorded.to_string());
+        }
         let fingerprint = block
             .get("fingerprint")
             .and_then(|f| f.as_str())

@@ -2,7 +2,7 @@
 //! search, finalize and the model folder handle both alike.
 
 use crate::data::image::{ImagePreprocessor, ImageShape, PreparedImages};
-use crate::data::{DataInfo, Dataset, Prepared, Preprocessor, Sealed};
+use crate::data::{DataInfo, Dataset, FoldSource, Prepared, Preprocessor, RowTags, Sealed};
 use crate::model::InputLayout;
 
 /// The fitted preprocessing of a dataset: column encoding for tables,
@@ -60,10 +60,19 @@ pub struct PreparedData {
     pub valid: Dataset,
     /// Test part, encoded, sealed until the final evaluation.
     pub test: Sealed<Dataset>,
+    /// Where each test row came from: its line in its file and its identifier
+    /// values (`--id` columns; an image's file or IDX record), sealed with the
+    /// test part. Open both at once with
+    /// `test.zip(test_rows)?.open(purpose)`, which gives one opening record,
+    /// then write them with [`super::write_test_predictions`].
+    pub test_rows: Sealed<RowTags>,
     /// Preprocessing fitted on the training part.
     pub preprocessor: InputPreprocessor,
     /// Provenance and shapes.
     pub info: DataInfo,
+    /// The train+validation rows of a table for k-fold scoring (`None` for
+    /// images, which are scored on one validation split).
+    pub fold_source: Option<FoldSource>,
 }
 
 impl PreparedData {
@@ -79,8 +88,10 @@ impl From<Prepared> for PreparedData {
             train: p.train,
             valid: p.valid,
             test: p.test,
+            test_rows: p.test_rows,
             preprocessor: InputPreprocessor::Table(p.preprocessor),
             info: p.info,
+            fold_source: Some(p.fold_source),
         }
     }
 }
@@ -91,8 +102,10 @@ impl From<PreparedImages> for PreparedData {
             train: p.train,
             valid: p.valid,
             test: p.test,
+            test_rows: p.test_rows,
             preprocessor: InputPreprocessor::Image(p.preprocessor),
             info: p.info,
+            fold_source: None,
         }
     }
 }

@@ -2,17 +2,25 @@
 //! strategy and evaluator, and run or resume the journal in a run directory.
 
 use super::data_source::DataSource;
+use super::prepared::PreparedData;
 use crate::evaluate::{TrainerSettings, TrainingEvaluator};
 use crate::genome::{AnyGenome, AnySpace, SearchSpace};
+use crate::search::seeds::derive;
 use crate::search::{
     resume_search, run_search, AgingEvolution, AgingSettings, Budget, Journal, JournalContents,
     RandomSampling, SearchContext, SearchObserver, SearchOutcome, SearchPlan, Strategy,
 };
 use crate::{Error, Result};
+use serde::{Deserialize, Serialize};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 use std::sync::Arc;
+
+/// Seed stream of the fold assignment, derived from the split seed (ASCII "foldset").
+const FOLD_ASSIGNMENT_STREAM: u64 = 0x0066_6f6c_6473_6574;
+/// Seed stream of the linear baseline's training, derived from the run seed (ASCII "baselin").
+const BASELINE_STREAM: u64 = 0x0062_6173_656c_696e;
 
 /// Which strategy proposes candidates.
 #[derive(Debug, Clone, PartialEq)]
@@ -67,6 +75,61 @@ impl StrategyChoice {
     }
 }
 
+/// Whether candidates are scored by k-fold cross-validation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FoldChoice {
+    /// [`AUTO_FOLDS`] folds for tables of at most [`AUTO_FOLD_MAX_ROWS`]
+    /// train+validation rows (fewer when the smallest class has fewer rows,
+    /// none below 2); one validation split for larger tables and for images.
+    Auto,
+    /// One validation split.
+    Off,
+    /// Exactly this many folds (at least 2, at most the rows of the
+    /// smallest class).
+    Exactly(u32),
+}
+
+/// Folds of [`FoldChoice::Auto`] on a small table.
+pub const AUTO_FOLDS: u32 = 5;
+/// Largest train+validation row count for which [`FoldChoice::Auto`] uses folds.
+pub const AUTO_FOLD_MAX_ROWS: usize = 4_000;
+
+impl FoldChoice {
+    /// The fold count for data of `rows` train+validation rows whose
+    /// smallest class has `smallest_class` rows (`None`: one validation
+    /// split). Images (`rows` = `None`) use one split unless K is given.
+    pub fn resolve(self, rows: Option<(usize, usize)>) -> Result<Option<u32>> {
+        match (self, rows) {
+            (FoldChoice::Off, _) => Ok(None),
+            (FoldChoice::Auto, None) => Ok(None),
+            (FoldChoice::Auto, Some((rows, smallest))) => {
+                let k = AUTO_FOLDS.min(smallest as u32);
+                Ok(Some(k).filter(|&k| rows <= AUTO_FOLD_MAX_ROWS && k >= 2))
+            }
+            (FoldChoice::Exactly(k), None) => Err(Error::input(format!(
+                "--folds {k}: k-fold scoring is for tables; image data is scored on one \
+                 validation split (leave --folds out, or give --folds off)"
+            ))),
+            (FoldChoice::Exactly(k), Some((_, smallest))) => {
+                if k < 2 {
+                    return Err(Error::input(format!(
+                        "--folds {k}: k-fold scoring needs at least 2 folds (or --folds off)"
+                    )));
+                }
+                if k as usize > smallest {
+                    return Err(Error::input(format!(
+                        "--folds {k} is more than the {smallest} train+validation rows of the \
+                         smallest class; every fold needs a row of every class: give --folds \
+                         {smallest} or fewer"
+                    )));
+                }
+                Ok(Some(k))
+            }
+        }
+    }
+}
+
 /// Everything a search needs; build it, adjust the public fields, then [`SearchJob::run`].
 #[derive(Debug, Clone)]
 pub struct SearchJob {
@@ -88,6 +151,10 @@ pub struct SearchJob {
     /// Genomes aging evolution starts from instead of random samples (e.g.
     /// minimal networks that evolution grows); empty for random starts.
     pub seed_genomes: Vec<AnyGenome>,
+    /// Whether candidates are scored by k-fold cross-validation; decided
+    /// with the data when the run starts and recorded in the header's
+    /// trainer block (`folds`).
+    pub folds: FoldChoice,
 }
 
 impl SearchJob {
@@ -102,7 +169,14 @@ impl SearchJob {
             jobs: 1,
             budget: Budget::evaluations(40),
             seed_genomes: Vec::new(),
+            folds: FoldChoice::Auto,
         }
+    }
+
+    /// Sets whether candidates are scored by k-fold cross-validation.
+    pub fn folds(mut self, folds: FoldChoice) -> Self {
+        self.folds = folds;
+        self
     }
 
     /// Sets the strategy.
@@ -216,6 +290,7 @@ impl SearchJob {
         for warning in &prepared.info.warnings {
             observer.on_warning(warning);
         }
+        let data_block = self.source.header_block(&prepared);
         let space = Arc::new(self.space.clone());
         if !self.seed_genomes.is_empty() && self.strategy == StrategyChoice::Random {
             return Err(Error::input(
@@ -225,24 +300,23 @@ impl SearchJob {
         let mut strategy =
             self.strategy
                 .build(space.clone(), self.budget.evaluations, &self.seed_genomes)?;
+        let mut trainer = self.trainer.clone();
+        let fold_rows = prepared
+            .fold_source
+            .as_ref()
+            .map(|source| (source.len(), source.smallest_class()));
+        trainer.folds = self.folds.resolve(fold_rows)?;
+        let evaluator = Arc::new(self.evaluator(prepared, &trainer)?);
         let plan = SearchPlan {
             seed: self.seed,
             jobs: self.jobs,
             budget: self.budget,
             space: space.describe(),
-            data: self.source.header_block(&prepared),
-            trainer: serde_json::to_value(&self.trainer)
+            data: data_block,
+            trainer: serde_json::to_value(&trainer)
                 .map_err(|e| Error::internal(format!("trainer settings: {e}")))?,
+            baselines: evaluator.baselines(derive(self.seed, BASELINE_STREAM, 0)),
         };
-        let evaluator = Arc::new(match prepared.preprocessor.image_shape() {
-            Some(shape) => TrainingEvaluator::for_images(
-                prepared.train,
-                prepared.valid,
-                shape,
-                self.trainer.clone(),
-            ),
-            None => TrainingEvaluator::new(prepared.train, prepared.valid, self.trainer.clone()),
-        });
         let context = SearchContext {
             space: space.as_ref(),
             evaluator,
@@ -254,6 +328,37 @@ impl SearchJob {
             resume_search(run_dir, &plan, context)
         } else {
             run_search(run_dir, &plan, context)
+        }
+    }
+
+    /// The evaluator of this job's candidates: k-fold when `trainer.folds`
+    /// is set (folds drawn from the split seed, so every run on the same
+    /// data and split shares them), one validation split otherwise.
+    fn evaluator(
+        &self,
+        prepared: PreparedData,
+        trainer: &TrainerSettings,
+    ) -> Result<TrainingEvaluator> {
+        let image = prepared.preprocessor.image_shape();
+        match (trainer.folds, prepared.fold_source) {
+            (Some(k), Some(source)) => {
+                let seed = derive(self.source.split_seed, FOLD_ASSIGNMENT_STREAM, 0);
+                let folds = source.folds(k as usize, seed)?;
+                TrainingEvaluator::with_folds(folds, image, trainer.clone())
+            }
+            (Some(_), None) => Err(Error::input(
+                "k-fold scoring is for tables; image data is scored on one validation split \
+                 (--folds off)",
+            )),
+            (None, _) => Ok(match image {
+                Some(shape) => TrainingEvaluator::for_images(
+                    prepared.train,
+                    prepared.valid,
+                    shape,
+                    trainer.clone(),
+                ),
+                None => TrainingEvaluator::new(prepared.train, prepared.valid, trainer.clone()),
+            }),
         }
     }
 
@@ -269,6 +374,7 @@ impl SearchJob {
                     "the journal header's trainer settings are unreadable: {e}"
                 ))
             })?;
+        let trainer_folds = trainer.folds;
         let strategy =
             StrategyChoice::from_header(&header.strategy.name, &header.strategy.settings)?;
         let seed_genomes: Vec<AnyGenome> = match header.strategy.settings.get("seed_genomes") {
@@ -288,6 +394,10 @@ impl SearchJob {
             jobs: header.jobs,
             budget: header.budget,
             seed_genomes,
+            folds: match trainer_folds {
+                Some(k) => FoldChoice::Exactly(k),
+                None => FoldChoice::Off,
+            },
         };
         Ok((job, fingerprint))
     }

@@ -120,6 +120,7 @@ impl Evaluator<Vec<u8>> for MatchEvaluator {
             epochs: 1,
             best_epoch: 1,
             message: None,
+            folds: None,
         }
     }
 

@@ -4,7 +4,7 @@ use crate::data::cells::{count_of, is_missing};
 use crate::data::image::{ImagePreprocessor, ImageShape, ImageTable};
 use crate::data::labels::class_index;
 use crate::data::split::split_named;
-use crate::data::{DataInfo, Dataset, Sealed, SplitFractions};
+use crate::data::{DataInfo, Dataset, RowTags, Sealed, SplitFractions};
 use crate::{Error, Result};
 
 /// An image dataset ready for search: standardised train and validation
@@ -17,6 +17,9 @@ pub struct PreparedImages {
     pub valid: Dataset,
     /// Test images, standardised, sealed until the final evaluation.
     pub test: Sealed<Dataset>,
+    /// Where each test image came from (its file relative to the folder, its
+    /// line of a pixel CSV, or its IDX record), sealed with the test part.
+    pub test_rows: Sealed<RowTags>,
     /// Shape of every image (`n_features = height · width · channels`).
     pub shape: ImageShape,
     /// Channel statistics fitted on the training images.
@@ -55,7 +58,12 @@ pub fn prepare_images(
     };
     let train = part(&split.train)?;
     let valid = part(&split.valid)?;
-    let test = split.test.try_map(|rows| part(&rows))?;
+    let (test, test_rows) = split
+        .test
+        .try_map(|rows| -> Result<(Dataset, RowTags)> {
+            Ok((part(&rows)?, RowTags::from_images(table, &rows)))
+        })?
+        .unzip();
     let mut warnings = table.warnings.clone();
     warnings.extend(fit_warnings);
     let info = DataInfo {
@@ -69,11 +77,13 @@ pub fn prepare_images(
         class_names,
         n_features: preprocessor.n_features(),
         warnings,
+        test_fingerprint: None,
     };
     Ok(PreparedImages {
         train,
         valid,
         test,
+        test_rows,
         shape: table.shape,
         preprocessor,
         info,

@@ -48,6 +48,10 @@ struct NormTrackingLearner<N: crate::train::AutogradNetwork> {
 }
 
 impl<N: crate::train::AutogradNetwork> Learner for NormTrackingLearner<N> {
+    fn set_class_weights(&mut self, weights: Option<&[f32]>) -> Result<()> {
+        self.inner.set_class_weights(weights)
+    }
+
     fn n_inputs(&self) -> usize {
         self.inner.n_inputs()
     }

@@ -1,4 +1,5 @@
-//! The backward pass: gradients of the mean cross-entropy into a flat buffer.
+//! The backward pass: gradients of the (optionally class-weighted) mean
+//! cross-entropy into a flat buffer.
 
 use super::elementwise::{column_sums, hidden_backward};
 use super::forward::weight_and_bias;
@@ -31,8 +32,9 @@ impl Deltas {
 
 /// Back-propagates the mean softmax cross-entropy of the logits in `space`
 /// (left by [`super::forward::forward`] on the same `x`, `rows` and
-/// `params`) against `labels`, writing every gradient into `grads` (laid out
-/// like `params`). Returns the loss.
+/// `params`) against `labels` (weighted by class when `class_weights` is
+/// given, see [`softmax_cross_entropy`]), writing every gradient into
+/// `grads` (laid out like `params`). Returns the loss.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn backward(
     params: &[f32],
@@ -40,6 +42,7 @@ pub(super) fn backward(
     layouts: &[LayerLayout],
     x: &[f32],
     labels: &[u32],
+    class_weights: Option<&[f32]>,
     space: &Workspace,
     deltas: &mut Deltas,
 ) -> Result<f32> {
@@ -50,7 +53,7 @@ pub(super) fn backward(
     let n_classes = output_layout.fan_out;
     let delta_logits = &mut deltas.pre[..rows * n_classes];
     let logits = &space.logits[..rows * n_classes];
-    let loss = softmax_cross_entropy(logits, labels, n_classes, delta_logits);
+    let loss = softmax_cross_entropy(logits, labels, n_classes, class_weights, delta_logits);
     let layer_input = |index: usize, fan_in: usize| -> &[f32] {
         match index.checked_sub(1) {
             Some(previous) => &space.out[previous][..rows * fan_in],

@@ -26,6 +26,7 @@ use self::backward::{backward, Deltas};
 use self::forward::forward;
 use self::layout::{layer_layouts, LayerLayout};
 use self::workspace::Workspace;
+use super::input_checks::check_class_weights;
 use super::learner::{Learner, Snapshot};
 use super::optimizer::OptimizerState;
 use crate::genome::LayerGenome;
@@ -48,6 +49,8 @@ pub struct FastMlpLearner {
     train_space: Workspace,
     eval_space: Workspace,
     deltas: Deltas,
+    /// Per-class weights of the training loss ([`Learner::set_class_weights`]).
+    class_weights: Option<Vec<f32>>,
     timing: Option<PhaseTimes>,
 }
 
@@ -109,6 +112,7 @@ impl FastMlpLearner {
             train_space: Workspace::default(),
             eval_space: Workspace::default(),
             deltas: Deltas::default(),
+            class_weights: None,
             timing: None,
         })
     }
@@ -135,7 +139,8 @@ impl FastMlpLearner {
     }
 
     /// Loss and gradients (one vector per tensor, [`parameter_specs`]
-    /// order) of a mini-batch, without updating anything. For tests and tools.
+    /// order) of a mini-batch, without updating anything (class-weighted
+    /// after [`Learner::set_class_weights`]). For tests and tools.
     pub fn gradients(
         &mut self,
         x: &[f32],
@@ -191,6 +196,7 @@ impl FastMlpLearner {
             &self.layouts,
             x,
             labels,
+            self.class_weights.as_deref(),
             &self.train_space,
             &mut self.deltas,
         )?;
@@ -229,6 +235,14 @@ impl Learner for FastMlpLearner {
             timing.steps += 1;
         }
         Ok(loss)
+    }
+
+    fn set_class_weights(&mut self, weights: Option<&[f32]>) -> Result<()> {
+        if let Some(weights) = weights {
+            check_class_weights(weights, self.n_classes)?;
+        }
+        self.class_weights = weights.map(<[f32]>::to_vec);
+        Ok(())
     }
 
     fn logits(&mut self, x: &[f32], rows: usize) -> Result<Vec<f32>> {
