@@ -62,7 +62,10 @@ pub struct TrainerSettings {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub folds: Option<u32>,
     /// What early stopping and the best-weight restore watch on the
-    /// held-out rows. Left out of the header for the validation loss.
+    /// held-out rows. Left out of the header for the validation loss, so a
+    /// header without it (every run made before the option existed) means
+    /// the loss; [`TrainerSettings::default`] and the command line watch the
+    /// objective.
     #[serde(default, skip_serializing_if = "Watched::is_loss")]
     pub watch: Watched,
     /// Class weights of the training loss (`None`: every row counts alike).
@@ -108,7 +111,8 @@ pub enum ClassWeighting {
 }
 
 impl Default for TrainerSettings {
-    /// 30 epochs, patience 5, ranked by accuracy, no size caps.
+    /// 30 epochs, patience 5, ranked by accuracy, early stopping and the
+    /// best-weight restore watching the objective, no size caps.
     fn default() -> Self {
         TrainerSettings {
             max_epochs: 30,
@@ -121,7 +125,7 @@ impl Default for TrainerSettings {
             augment: false,
             curve_cut: false,
             folds: None,
-            watch: Watched::Loss,
+            watch: Watched::Objective,
             class_weight: None,
         }
     }
@@ -583,15 +587,16 @@ impl TrainingEvaluator {
     /// [`LINEAR_BASELINE_MIN_EPOCHS`] epochs with a patience of at least
     /// [`LINEAR_BASELINE_MIN_PATIENCE`] (when early stopping is on): a convex
     /// model that is stopped before it converges would make a weak
-    /// baseline and flatter the search). Size caps and the size penalty do
-    /// not apply to them: their objective is the raw score.
+    /// baseline and flatter the search). Size caps do not apply to them;
+    /// with `--size-penalty` the linear model's objective is penalised like
+    /// a candidate's (its parameters counted), so the two compare on one
+    /// scale.
     pub fn baselines(&self, seed: u64) -> Vec<BaselineRecord> {
         let mut plain = self.clone();
         plain.settings.max_epochs = plain.settings.max_epochs.max(LINEAR_BASELINE_MIN_EPOCHS);
         if plain.settings.patience > 0 {
             plain.settings.patience = plain.settings.patience.max(LINEAR_BASELINE_MIN_PATIENCE);
         }
-        plain.settings.size_penalty = None;
         plain.settings.max_params = None;
         plain.settings.max_madds = None;
         plain.settings.max_memory_mb = None;

@@ -285,3 +285,75 @@ fn fold_counts_and_finalize_options_are_checked() {
         assert!(!run.join("final").exists());
     }
 }
+
+#[test]
+fn a_comparison_credits_shared_genomes_and_opens_its_test_split_once() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let cmp = dir.path().join("cmp");
+    let compared = gemmule(&[
+        "compare",
+        "--data",
+        s(&data("iris.csv")),
+        "--out",
+        s(&cmp),
+        "--seeds",
+        "2",
+        "--budget",
+        "6",
+        "--epochs",
+        "10",
+        "--jobs",
+        "1",
+        "--quiet",
+    ]);
+    assert!(compared.status.success(), "{}", text(&compared));
+    let out = String::from_utf8_lossy(&compared.stdout).to_string();
+    let line = out
+        .lines()
+        .find(|l| l.starts_with("pick over all runs"))
+        .unwrap_or_else(|| panic!("no pick line in:\n{out}"));
+    // The genome the pick names, and every strategy whose runs evaluated
+    // it, read from the journals here.
+    let id = line
+        .split("genome ")
+        .nth(1)
+        .and_then(|rest| rest.split_whitespace().next())
+        .expect("a genome id");
+    let mut strategies = Vec::new();
+    for entry in std::fs::read_dir(&cmp).expect("list").flatten() {
+        let path = entry.path();
+        if !path.join("journal.jsonl").is_file() {
+            continue;
+        }
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let strategy = name.split('-').next().expect("strategy").to_string();
+        if journal(&path)
+            .iter()
+            .any(|r| r["kind"] == "evaluation" && r["id"] == id)
+            && !strategies.contains(&strategy)
+        {
+            strategies.push(strategy);
+        }
+    }
+    strategies.sort();
+    if strategies.len() > 1 {
+        assert!(line.contains("no win for either strategy"), "{line}");
+    } else {
+        assert!(
+            line.contains(&format!("found by {}", strategies[0])),
+            "{line}"
+        );
+    }
+    assert!(out.contains("linear baseline"), "{out}");
+    let finalized = gemmule(&["finalize", s(&cmp)]);
+    assert!(finalized.status.success(), "{}", text(&finalized));
+    assert!(
+        text(&finalized).contains(&format!("genome {id}")),
+        "{}",
+        text(&finalized)
+    );
+    // Every run of the comparison shares the test split: a second opening
+    // through any of its runs is refused.
+    let refused = gemmule(&["finalize", s(&cmp.join("random-seed2"))]);
+    assert_eq!(refused.status.code(), Some(2), "{}", text(&refused));
+}

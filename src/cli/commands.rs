@@ -13,7 +13,10 @@ use crate::genome::{AnyGenome, AnySpace, SearchSpace};
 use crate::model::{genome_cost, train_genome};
 use crate::search::{AgingSettings, Budget, Journal, RunVerdict, SearchEnding, SearchOutcome};
 use crate::train::TrainSettings;
-use crate::workflow::{finalize, resume_job, FinalizeOptions, SearchJob, StrategyChoice};
+use crate::workflow::{
+    comparison_pick, finalize, resume_job, ComparePlan, Comparison, FinalizeOptions, SearchJob,
+    StrategyChoice,
+};
 use crate::Error;
 use anyhow::{Context, Result};
 use std::io::Write;
@@ -507,7 +510,7 @@ fn report_outcome(run: &std::path::Path, outcome: SearchOutcome) -> Result<i32> 
 }
 
 fn finalize_command(a: FinalizeArgs) -> Result<i32> {
-    let options = FinalizeOptions {
+    let mut options = FinalizeOptions {
         top_k: a.top_k,
         repeats: a.repeats,
         reopen: a.reopen,
@@ -517,11 +520,34 @@ fn finalize_command(a: FinalizeArgs) -> Result<i32> {
         positive_class: a.positive.clone(),
         ledger: None,
     };
-    let report = finalize(&a.run, &options).context("finalize")?;
+    // A comparison directory: finalize the run holding the comparison's
+    // pick, so the comparison's test split is opened once.
+    let mut run = a.run.clone();
+    if ComparePlan::path_in(&a.run).is_file() {
+        if a.index.is_some() {
+            return Err(Error::input(
+                "--index names an evaluation of one run; give that run's folder \
+                 (COMPARISON/STRATEGY-seedN) instead of the comparison folder",
+            )
+            .into());
+        }
+        let comparison = Comparison::load(&a.run)?;
+        let Some(pick) = comparison_pick(&comparison, options.pick)? else {
+            return Err(Error::input(format!(
+                "{}: no run of this comparison has a scored candidate yet; run `gemmule compare` first",
+                a.run.display()
+            ))
+            .into());
+        };
+        println!("{}", pick.describe());
+        options.index = Some(pick.index);
+        run = pick.run_dir;
+    }
+    let report = finalize(&run, &options).context("finalize")?;
     print!("{}", super::final_text::final_report_text(&report));
     println!(
         "final model saved in {}",
-        a.run.join(&report.model_dir).display()
+        run.join(&report.model_dir).display()
     );
     Ok(0)
 }

@@ -8,8 +8,8 @@ use crate::genome::AnyGenome;
 use crate::search::{EvaluationRecord, SearchObserver, SearchOutcome};
 use crate::stats::{Summary, DEFAULT_RESAMPLES};
 use crate::workflow::{
-    ComparePlan, ComparedStrategy, Comparison, ComparisonEnding, ComparisonObserver,
-    ComparisonReport, PlannedRun, ReportOptions, RunState,
+    comparison_pick, ComparePlan, ComparedStrategy, Comparison, ComparisonEnding,
+    ComparisonObserver, ComparisonReport, PlannedRun, ReportOptions, RunState,
 };
 use crate::Error;
 use anyhow::Result;
@@ -350,6 +350,17 @@ pub(super) fn render_report(report: &ComparisonReport, comparison: &Comparison) 
             d.seed,
             first = test.first.name(),
             second = test.second.name(),
+        ));
+    }
+    if let Ok(Some(pick)) = comparison_pick(comparison, None) {
+        out.push_str(&format!("\n{}\n", pick.describe()));
+        if let Some(gap) = &pick.baseline_gap {
+            out.push_str(&format!("  {}\n", gap.text));
+        }
+        out.push_str(&format!(
+            "  `gemmule finalize {}` opens the comparison's test split once, for this pick and \
+             the linear baseline\n",
+            comparison.dir().display()
         ));
     }
     out

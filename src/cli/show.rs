@@ -71,6 +71,7 @@ pub fn show(args: &ShowArgs) -> Result<i32> {
             chosen,
             args.index.is_some(),
             seconds,
+            args.pick.map(super::args::PickArg::rule),
         );
         let text = serde_json::to_string_pretty(&document)
             .map_err(|e| Error::internal(format!("show --json: {e}")))?;

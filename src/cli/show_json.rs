@@ -116,7 +116,8 @@ pub struct Candidate {
     pub madds: Option<u64>,
     /// Epochs trained.
     pub epochs: u32,
-    /// Best epoch by validation loss (1-based, 0 when not trained).
+    /// Best epoch by the watched validation quantity (1-based, 0 when not
+    /// trained; with k-fold scoring the folds' mean, rounded).
     pub best_epoch: u32,
     /// How the evaluation ended.
     pub status: EvalStatus,
@@ -170,7 +171,8 @@ pub struct TestSplit {
 /// One test opening (written by `gemmule finalize`).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TestOpening {
-    /// 1 for the first opening, 2 for the second, …
+    /// Which opening of the test split this was, as the test ledger counted
+    /// it (openings written by gemmule 0.1.0: the run's own count).
     pub opening: u64,
     /// Journal index of the candidate tested.
     pub index: Option<u64>,
@@ -214,6 +216,7 @@ impl ShowDocument {
         chosen: Option<&EvaluationRecord<Value>>,
         by_index: bool,
         cpu_seconds: f64,
+        pick: Option<crate::search::PickRule>,
     ) -> Self {
         let h = &contents.header;
         let records = &contents.evaluations;
@@ -260,7 +263,7 @@ impl ShowDocument {
             lineage: chosen.map_or_else(Vec::new, |r| lineage(records, r.index)),
             pareto_front: front,
             test_split: test_split(&contents.openings),
-            verdict: crate::search::RunVerdict::new(contents, None),
+            verdict: crate::search::RunVerdict::new(contents, pick),
             warnings: contents.warnings.clone(),
         }
     }

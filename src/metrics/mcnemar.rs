@@ -10,7 +10,7 @@
 //! doubling the smaller tail for the symmetric p = 1/2 (checked against
 //! SciPy 1.17.1 in `tests/metrics_reference.rs`). The test is McNemar's
 //! (Psychometrika 12, 1947; citation from memory); its exact binomial form is
-//! the definition `shared/fixtures/make_metrics_fixture.py` states.
+//! the definition `tests/reference/make_metrics_fixture.py` (a copy of the shared fixture script) states.
 
 /// Exponent step used to keep the running binomial coefficient in range.
 const RESCALE_BITS: i32 = 600;

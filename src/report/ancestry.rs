@@ -3,7 +3,7 @@
 
 use super::input::ReportRun;
 use crate::render::{lineage, pareto_front, LineageStep};
-use crate::search::{compare_objectives, EvaluationRecord};
+use crate::search::EvaluationRecord;
 use serde::Serialize;
 use serde_json::Value;
 
@@ -35,40 +35,26 @@ pub struct FrontMember {
     pub objective: f64,
 }
 
-/// The best candidate over all runs: the highest objective; ties go to the
-/// earlier run, then to the earlier evaluation. `None` when nothing is scored.
+/// The candidate the report presents: the pick rule over every run's
+/// candidates together (one standard error for k-fold runs, the top
+/// objective otherwise; see [`crate::search::pick`]); ties go to the earlier
+/// run, then to the earlier evaluation. `None` when nothing is scored.
 pub fn best_candidate(runs: &[ReportRun]) -> Option<Located<'_>> {
-    let mut best: Option<Located<'_>> = None;
-    for (position, run) in runs.iter().enumerate() {
-        for record in &run.journal.evaluations {
-            let better = match &best {
-                None => record.objective.is_some(),
-                Some(current) => {
-                    compare_objectives(record.objective, current.record.objective).is_gt()
-                }
-            };
-            if better {
-                best = Some(Located {
-                    run: position,
-                    record,
-                });
-            }
-        }
-    }
-    best
+    let (pooled, owners) = pooled_records(runs);
+    let folded = runs
+        .first()
+        .is_some_and(|run| run.journal.header.trainer.get("folds").is_some());
+    let picked = crate::search::pick(&pooled, crate::search::PickRule::default_for(folded))?;
+    let (run, record) = owners[picked.record.index as usize];
+    Some(Located { run, record })
 }
 
-/// The lineage of `candidate` inside its run, first ancestor first.
-pub fn lineage_of(runs: &[ReportRun], candidate: Located<'_>) -> Vec<LineageStep> {
-    runs.get(candidate.run)
-        .map(|run| lineage(&run.journal.evaluations, candidate.record.index))
-        .unwrap_or_default()
-}
-
-/// The Pareto front over every run's candidates together (fewest parameters
-/// first): a candidate is on it when no candidate of any run has at least
-/// its objective with at most its parameters, one of them strictly.
-pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
+/// Every run's records in one list (plan order, then journal order), their
+/// `index` renumbered to the pooled position, without genomes; and for each
+/// pooled position its run and original record.
+fn pooled_records(
+    runs: &[ReportRun],
+) -> (Vec<EvaluationRecord<()>>, Vec<(usize, &EvaluationRecord<Value>)>) {
     let mut owners = Vec::new();
     let mut pooled: Vec<EvaluationRecord<()>> = Vec::new();
     for (position, run) in runs.iter().enumerate() {
@@ -76,7 +62,7 @@ pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
             owners.push((position, record));
             pooled.push(EvaluationRecord {
                 index: pooled.len() as u64,
-                id: String::new(),
+                id: record.id.clone(),
                 genome: (),
                 parent: None,
                 parent_id: None,
@@ -90,10 +76,25 @@ pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
                 epochs: record.epochs,
                 best_epoch: record.best_epoch,
                 message: None,
-                folds: None,
+                folds: record.folds.clone(),
             });
         }
     }
+    (pooled, owners)
+}
+
+/// The lineage of `candidate` inside its run, first ancestor first.
+pub fn lineage_of(runs: &[ReportRun], candidate: Located<'_>) -> Vec<LineageStep> {
+    runs.get(candidate.run)
+        .map(|run| lineage(&run.journal.evaluations, candidate.record.index))
+        .unwrap_or_default()
+}
+
+/// The Pareto front over every run's candidates together (fewest parameters
+/// first): a candidate is on it when no candidate of any run has at least
+/// its objective with at most its parameters, one of them strictly.
+pub fn pooled_front(runs: &[ReportRun]) -> Vec<FrontMember> {
+    let (pooled, owners) = pooled_records(runs);
     pareto_front(&pooled)
         .into_iter()
         .filter_map(|pooled_index| {

@@ -166,7 +166,8 @@ pub struct TestSplitFacts {
 pub struct OpeningFacts {
     /// The run.
     pub run: String,
-    /// 1 for the run's first opening, 2 for the second, …
+    /// Which opening of the test split this was, as the test ledger counted
+    /// it (openings written by gemmule 0.1.0: the run's own count).
     pub opening: u64,
     /// Journal index of the candidate tested.
     pub index: Option<u64>,

@@ -72,7 +72,8 @@ pub struct FoldResult {
 /// The folds of a k-fold evaluation.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FoldScores {
-    /// Folds scored (the K of K-fold cross-validation).
+    /// The K of K-fold cross-validation (`each` may hold fewer folds when a
+    /// fold diverged, failed or was cut and ended the candidate).
     pub k: u32,
     /// Standard error of the mean objective over the folds (sample standard
     /// deviation / √K); `None` when fewer than two folds were scored.

@@ -94,7 +94,21 @@ pub fn pick<G>(records: &[EvaluationRecord<G>], rule: PickRule) -> Option<Picked
             index: record.index,
         })
         .collect();
-    let best = scored[plain_pick(&candidates)?];
+    // The best mean, earliest on ties: the candidate whose standard error
+    // sets the one-standard-error threshold (as `one_standard_error_pick`).
+    let best_position = candidates
+        .iter()
+        .enumerate()
+        .filter(|(_, c)| c.mean.is_finite())
+        .reduce(|kept, next| {
+            if next.1.mean > kept.1.mean {
+                next
+            } else {
+                kept
+            }
+        })?
+        .0;
+    let best = scored[best_position];
     let folded = best.folds.is_some();
     let (position, threshold) = match rule {
         PickRule::OneSe if folded => {

@@ -166,11 +166,13 @@ where
     let mut warnings: Vec<String> = warning.into_iter().collect();
     warnings.extend(contents.warnings);
     let mut journal = Journal::reopen_with(run_dir, contents.intact_len, wrap)?;
-    if contents.baselines.is_empty() && contents.evaluations.is_empty() {
-        // Killed between the header and the baselines: write them now, as
-        // the uninterrupted run did.
+    if contents.evaluations.is_empty() {
+        // Killed between the header and the first evaluation: write the
+        // baselines still missing, in order, as the uninterrupted run did.
         for baseline in &plan.baselines {
-            journal.append_baseline(baseline)?;
+            if !contents.baselines.iter().any(|b| b.name == baseline.name) {
+                journal.append_baseline(baseline)?;
+            }
         }
     }
     let files = SessionFiles {

@@ -39,6 +39,18 @@ pub struct GapSummary {
     pub text: String,
 }
 
+impl From<BaselineGap> for GapSummary {
+    fn from(gap: BaselineGap) -> Self {
+        GapSummary {
+            mean: gap.mean,
+            standard_error: gap.standard_error,
+            pairs: gap.pairs,
+            beats_baseline: gap.beats_baseline(),
+            text: gap.describe(),
+        }
+    }
+}
+
 /// The verdict of a run (see the module docs).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RunVerdict {
@@ -80,13 +92,7 @@ impl RunVerdict {
         let baseline_gap = picked
             .as_ref()
             .and_then(|p| BaselineGap::of(p.record, &contents.baselines))
-            .map(|gap| GapSummary {
-                mean: gap.mean,
-                standard_error: gap.standard_error,
-                pairs: gap.pairs,
-                beats_baseline: gap.beats_baseline(),
-                text: gap.describe(),
-            });
+            .map(GapSummary::from);
         RunVerdict {
             folds,
             pick_rule: picked.as_ref().map_or(rule, |p| p.rule),

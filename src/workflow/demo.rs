@@ -7,6 +7,7 @@
 //! make the demo five times slower).
 
 use super::compare::{Comparison, ComparisonEnding, ComparisonObserver};
+use super::compare_pick::comparison_pick;
 use super::compare_plan::{ComparePlan, ComparedStrategy};
 use super::compare_report::{ComparisonReport, ReportOptions};
 use super::data_source::DataSource;
@@ -15,8 +16,8 @@ use super::finalize::{finalize, FinalizeOptions};
 use super::search_job::FoldChoice;
 use crate::demo::{ensure_demo_data, DemoFiles};
 use crate::evaluate::TrainerSettings;
-use crate::genome::{AnyGenome, LayerGenome, LayerSpace};
-use crate::search::{Journal, JournalContents, RunSummary};
+use crate::genome::{LayerGenome, LayerSpace};
+use crate::search::{Journal, JournalContents};
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
@@ -108,8 +109,8 @@ pub fn run_demo(
     if comparison.run(observer, stop)? == ComparisonEnding::Stopped {
         return Ok(None);
     }
-    let winner_run = best_run(&comparison)?;
-    let winner = finalize_once(&winner_run)?;
+    let (winner_run, index) = best_run(&comparison)?;
+    let winner = finalize_once(&winner_run, index)?;
     let report = comparison.report(&ReportOptions::default())?;
     let baseline = winner.baseline.clone().ok_or_else(|| {
         Error::input(format!(
@@ -129,32 +130,26 @@ pub fn run_demo(
     }))
 }
 
-/// The run of the comparison holding the best validation objective (the
-/// first such run in plan order on ties).
-fn best_run(comparison: &Comparison) -> Result<PathBuf> {
-    let mut best: Option<(f64, PathBuf)> = None;
-    for run in comparison.plan().runs() {
-        let dir = comparison.run_dir(&run);
-        let contents: JournalContents<AnyGenome> = Journal::read(&Journal::path_in(&dir))?;
-        let summary = RunSummary::new(&contents.evaluations, 1);
-        if let Some(value) = summary.best.as_ref().and_then(|r| r.objective) {
-            if best.as_ref().is_none_or(|(b, _)| value > *b) {
-                best = Some((value, dir));
-            }
-        }
-    }
-    best.map(|(_, dir)| dir)
+/// The run of the comparison holding the comparison's pick
+/// ([`comparison_pick`]: the pick rule over every run's candidates).
+fn best_run(comparison: &Comparison) -> Result<(PathBuf, u64)> {
+    comparison_pick(comparison, None)?
+        .map(|pick| (pick.run_dir, pick.index))
         .ok_or_else(|| Error::internal("no run of the demo comparison scored a candidate"))
 }
 
 /// Finalizes `run` unless it was finalized before, then returns its first
 /// test opening (so repeating the demo never opens a test split twice).
-fn finalize_once(run: &Path) -> Result<FinalReport> {
+fn finalize_once(run: &Path, index: u64) -> Result<FinalReport> {
     let contents: JournalContents<serde_json::Value> = Journal::read(&Journal::path_in(run))?;
     if let Some(first) = contents.openings.first() {
         return FinalReport::from_opening(first);
     }
-    finalize(run, &FinalizeOptions::default())
+    let options = FinalizeOptions {
+        index: Some(index),
+        ..FinalizeOptions::default()
+    };
+    finalize(run, &options)
 }
 
 /// The baseline genome: no hidden layer (softmax regression on the encoded

@@ -171,27 +171,29 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
     let report =
         ClassReport::from_probabilities(&probabilities, &test.y, test.n_classes, positive)?;
     let scores = score(&probabilities, &test.y, test.n_classes);
-    let baseline_probabilities = baseline_outcome
-        .network
-        .predict_proba(&test.x, test.len())?;
-    let baseline_report = ClassReport::from_probabilities(
-        &baseline_probabilities,
-        &test.y,
-        test.n_classes,
-        positive,
-    )?;
-    let baseline_scores = score(&baseline_probabilities, &test.y, test.n_classes);
-    let mcnemar = mcnemar_of(
-        &probabilities,
-        &baseline_probabilities,
-        &test.y,
-        test.n_classes,
-    );
+    // A diverged baseline is left out (the pick's opening still counts).
+    let baseline_probabilities = if baseline_outcome.status == TrainStatus::Diverged {
+        None
+    } else {
+        Some(
+            baseline_outcome
+                .network
+                .predict_proba(&test.x, test.len())?,
+        )
+    };
     let entry = ledger.record_opening(
-        &NewOpening::new(facts, run_dir, "finalize").evaluated([
-            format!("pick {} (evaluation {})", pick.genome.id(), pick.index),
-            format!("{LINEAR_BASELINE} baseline {}", baseline_genome.id()),
-        ]),
+        &NewOpening::new(facts, run_dir, "finalize").evaluated(
+            std::iter::once(format!(
+                "pick {} (evaluation {})",
+                pick.genome.id(),
+                pick.index
+            ))
+            .chain(
+                baseline_probabilities
+                    .is_some()
+                    .then(|| format!("{LINEAR_BASELINE} baseline {}", baseline_genome.id())),
+            ),
+        ),
         options.reopen,
     )?;
     let correct = |report: &ClassReport| -> u64 {
@@ -225,21 +227,42 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
             .collect(),
         class_names: prepared.info.class_names.clone(),
         class_report: Some(report),
-        baseline: Some(BaselineTest {
-            name: LINEAR_BASELINE.into(),
-            genome: baseline_genome,
-            validation_objective: baseline_record.and_then(|record| record.evaluation.objective),
-            epochs: baseline_epochs,
-            test_scores: scores_map(&baseline_scores),
-            test_accuracy_interval: wilson_interval(correct(&baseline_report), rows),
-            class_report: baseline_report,
-        }),
-        mcnemar: Some(mcnemar),
+        baseline: match &baseline_probabilities {
+            Some(theirs) => {
+                let class_report =
+                    ClassReport::from_probabilities(theirs, &test.y, test.n_classes, positive)?;
+                Some(BaselineTest {
+                    name: LINEAR_BASELINE.into(),
+                    genome: baseline_genome,
+                    validation_objective: baseline_record
+                        .and_then(|record| record.evaluation.objective),
+                    epochs: baseline_epochs,
+                    test_scores: scores_map(&score(theirs, &test.y, test.n_classes)),
+                    test_accuracy_interval: wilson_interval(correct(&class_report), rows),
+                    class_report,
+                })
+            }
+            None => None,
+        },
+        mcnemar: baseline_probabilities
+            .as_ref()
+            .map(|theirs| mcnemar_of(&probabilities, theirs, &test.y, test.n_classes)),
         split_id: Some(entry.split.as_str().to_string()),
         ledger: Some(ledger.path().display().to_string()),
         predictions_file: Some(format!("{FINAL_MODEL_DIR}/{TEST_PREDICTIONS_FILE}")),
         model_dir: FINAL_MODEL_DIR.into(),
     };
+    // The predictions first: a kill after the journal record must not leave
+    // an opening without its predictions file.
+    let final_dir = run_dir.join(FINAL_MODEL_DIR);
+    std::fs::create_dir_all(&final_dir).map_err(|e| Error::io(&final_dir, e))?;
+    write_test_predictions(
+        &final_dir.join(TEST_PREDICTIONS_FILE),
+        &tags,
+        &final_report.class_names,
+        &test.y,
+        &probabilities,
+    )?;
     let body = serde_json::to_value(&final_report)
         .map_err(|e| Error::internal(format!("final report: {e}")))?;
     Journal::append_test_opening(&lock, &body)?;
@@ -260,14 +283,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
         prepared.preprocessor,
         provenance,
     )
-    .save(&run_dir.join(FINAL_MODEL_DIR))?;
-    write_test_predictions(
-        &run_dir.join(FINAL_MODEL_DIR).join(TEST_PREDICTIONS_FILE),
-        &tags,
-        &final_report.class_names,
-        &test.y,
-        &probabilities,
-    )?;
+    .save(&final_dir)?;
     Ok(final_report)
 }
 

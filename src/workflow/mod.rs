@@ -2,6 +2,7 @@
 //! train one genome, and the final evaluation on the sealed test split.
 
 mod compare;
+mod compare_pick;
 mod compare_plan;
 mod compare_report;
 mod data_source;
@@ -15,6 +16,7 @@ mod test_predictions;
 mod wilson;
 
 pub use compare::{Comparison, ComparisonEnding, ComparisonObserver, QuietComparison, RunState};
+pub use compare_pick::{comparison_pick, ComparisonPick};
 pub use compare_plan::{ComparePlan, ComparedStrategy, PlannedRun, COMPARISON_FILE};
 pub use compare_report::{
     ComparisonReport, ReachSummary, ReportOptions, RunResult, StrategyResult, StrategyTest,

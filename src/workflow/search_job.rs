@@ -315,7 +315,11 @@ impl SearchJob {
             data: data_block,
             trainer: serde_json::to_value(&trainer)
                 .map_err(|e| Error::internal(format!("trainer settings: {e}")))?,
-            baselines: evaluator.baselines(derive(self.seed, BASELINE_STREAM, 0)),
+            baselines: if self.journal_needs_baselines(run_dir, fingerprint.is_some())? {
+                evaluator.baselines(derive(self.seed, BASELINE_STREAM, 0))
+            } else {
+                Vec::new()
+            },
         };
         let context = SearchContext {
             space: space.as_ref(),
@@ -329,6 +333,18 @@ impl SearchJob {
         } else {
             run_search(run_dir, &plan, context)
         }
+    }
+
+    /// Whether the run's journal still lacks its baselines: a new run, or a
+    /// resumed one killed before its first evaluation with a baseline
+    /// missing (a run made before baselines existed never gets them, so its
+    /// journal stays as it was).
+    fn journal_needs_baselines(&self, run_dir: &Path, resuming: bool) -> Result<bool> {
+        if !resuming {
+            return Ok(true);
+        }
+        let contents: JournalContents<Value> = Journal::read(&Journal::path_in(run_dir))?;
+        Ok(contents.evaluations.is_empty() && contents.baselines.len() < 2)
     }
 
     /// The evaluator of this job's candidates: k-fold when `trainer.folds`
