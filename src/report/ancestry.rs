@@ -54,7 +54,10 @@ pub fn best_candidate(runs: &[ReportRun]) -> Option<Located<'_>> {
 /// pooled position its run and original record.
 fn pooled_records(
     runs: &[ReportRun],
-) -> (Vec<EvaluationRecord<()>>, Vec<(usize, &EvaluationRecord<Value>)>) {
+) -> (
+    Vec<EvaluationRecord<()>>,
+    Vec<(usize, &EvaluationRecord<Value>)>,
+) {
     let mut owners = Vec::new();
     let mut pooled: Vec<EvaluationRecord<()>> = Vec::new();
     for (position, run) in runs.iter().enumerate() {
