@@ -49,15 +49,13 @@ pub fn best_candidate(runs: &[ReportRun]) -> Option<Located<'_>> {
     Some(Located { run, record })
 }
 
+/// A pooled record's run (its position in the runs) and original record.
+type Owner<'a> = (usize, &'a EvaluationRecord<Value>);
+
 /// Every run's records in one list (plan order, then journal order), their
 /// `index` renumbered to the pooled position, without genomes; and for each
 /// pooled position its run and original record.
-fn pooled_records(
-    runs: &[ReportRun],
-) -> (
-    Vec<EvaluationRecord<()>>,
-    Vec<(usize, &EvaluationRecord<Value>)>,
-) {
+fn pooled_records(runs: &[ReportRun]) -> (Vec<EvaluationRecord<()>>, Vec<Owner<'_>>) {
     let mut owners = Vec::new();
     let mut pooled: Vec<EvaluationRecord<()>> = Vec::new();
     for (position, run) in runs.iter().enumerate() {
