@@ -4,6 +4,7 @@
 //! escaping of the HTML, determinism, and the page loading in headless
 //! Chromium (skipped with a note when Chromium is not installed).
 
+mod ci_skip;
 use gemmule::report::{
     plot_best_by_evaluation, plot_best_by_seconds, plot_lineage, plot_score_by_size,
     CandidatePoint, CurveGroup, LineagePoint, TimedCurve,
@@ -439,7 +440,7 @@ fn headless(
 #[test]
 fn headless_chromium_renders_the_report() {
     let Some(browser) = chromium() else {
-        println!("SKIPPED headless_chromium_renders_the_report: Chromium is not installed (apt-get install chromium)");
+        ci_skip::skip("Chromium is not installed (apt-get install chromium)");
         return;
     };
     let temp = tempfile::tempdir().expect("temp dir");
