@@ -284,6 +284,15 @@ fn fold_counts_and_finalize_options_are_checked() {
         assert!(text(&o).contains(expected), "{args:?}: {}", text(&o));
         assert!(!run.join("final").exists());
     }
+    // Re-training the top genomes of a k-fold run re-scores them on the
+    // same folds, not on a single validation split.
+    let o = gemmule(&["finalize", s(&run), "--top-k", "2", "--repeats", "2"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(
+        text(&o).contains("re-scored on the same folds"),
+        "{}",
+        text(&o)
+    );
 }
 
 #[test]

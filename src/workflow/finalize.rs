@@ -17,6 +17,7 @@ use crate::ledger::{Ledger, LedgerLocation, NewOpening, SplitFacts};
 use crate::metrics::{mcnemar_exact_p_value, ClassReport};
 use crate::model::train_genome;
 use crate::search::seeds::derive;
+use crate::search::Evaluator;
 use crate::search::{
     pick, BaselineRecord, EvaluationRecord, Journal, JournalContents, PickRule, RunLock,
     RunSummary, LINEAR_BASELINE,
@@ -448,6 +449,11 @@ fn choose(
             break;
         }
     }
+    // K-fold runs re-score on the same folds; other runs on the validation split.
+    let folds = match (job.trainer.folds, &prepared.fold_source) {
+        (Some(k), Some(source)) => Some(job.fold_evaluator(source, k, &job.trainer)?),
+        _ => None,
+    };
     let mut best: Option<Pick> = None;
     for (rank, record) in distinct.iter().enumerate() {
         let mut total = 0.0;
@@ -458,23 +464,36 @@ fn choose(
                 RECHECK_STREAM,
                 (rank * options.repeats + repeat) as u64,
             );
-            let mut settings =
-                TrainSettings::new(job.trainer.max_epochs, job.trainer.patience, seed);
-            settings.watch = job.trainer.watch.watch(job.trainer.objective);
-            let outcome = train_genome(
-                &record.genome,
-                &prepared.train,
-                Some(&prepared.valid),
-                &prepared.layout(),
-                &settings,
-                job.trainer.augment,
-            )?;
-            let value = match (outcome.status, outcome.scores) {
-                (TrainStatus::Diverged, _) | (_, None) => f64::NEG_INFINITY,
-                (_, Some(s)) => job.trainer.objective.value(&s),
+            let (value, best_epoch) = match &folds {
+                Some(evaluator) => {
+                    let evaluation =
+                        Evaluator::<AnyGenome>::evaluate(evaluator, &record.genome, seed);
+                    (
+                        evaluation.objective.unwrap_or(f64::NEG_INFINITY),
+                        evaluation.best_epoch,
+                    )
+                }
+                None => {
+                    let mut settings =
+                        TrainSettings::new(job.trainer.max_epochs, job.trainer.patience, seed);
+                    settings.watch = job.trainer.watch.watch(job.trainer.objective);
+                    let outcome = train_genome(
+                        &record.genome,
+                        &prepared.train,
+                        Some(&prepared.valid),
+                        &prepared.layout(),
+                        &settings,
+                        job.trainer.augment,
+                    )?;
+                    let value = match (outcome.status, outcome.scores) {
+                        (TrainStatus::Diverged, _) | (_, None) => f64::NEG_INFINITY,
+                        (_, Some(s)) => job.trainer.objective.value(&s),
+                    };
+                    (value, outcome.best_epoch)
+                }
             };
             total += value;
-            epochs += u64::from(fallback_epochs(outcome.best_epoch));
+            epochs += u64::from(fallback_epochs(best_epoch));
         }
         let mean = total / options.repeats as f64;
         if best.as_ref().is_none_or(|p| mean > p.objective) {
@@ -486,9 +505,14 @@ fn choose(
                 epochs: ((epochs as f64) / options.repeats as f64).round().max(1.0) as u32,
                 selection: format!(
                     "best mean validation objective of the top {} genomes over {} seeds each \
-                     (re-trained on the validation split)",
+                     (re-scored on {})",
                     distinct.len(),
-                    options.repeats
+                    options.repeats,
+                    if folds.is_some() {
+                        "the same folds"
+                    } else {
+                        "the validation split"
+                    }
                 ),
             });
         }

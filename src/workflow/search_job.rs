@@ -3,6 +3,7 @@
 
 use super::data_source::DataSource;
 use super::prepared::PreparedData;
+use crate::data::FoldSource;
 use crate::evaluate::{TrainerSettings, TrainingEvaluator};
 use crate::genome::{AnyGenome, AnySpace, SearchSpace};
 use crate::search::seeds::derive;
@@ -347,6 +348,19 @@ impl SearchJob {
         Ok(contents.evaluations.is_empty() && contents.baselines.len() < 2)
     }
 
+    /// The k-fold evaluator of this job's table: `k` folds drawn from the
+    /// split seed (so every run on the same data and split shares them).
+    pub(crate) fn fold_evaluator(
+        &self,
+        source: &FoldSource,
+        k: u32,
+        trainer: &TrainerSettings,
+    ) -> Result<TrainingEvaluator> {
+        let seed = derive(self.source.split_seed, FOLD_ASSIGNMENT_STREAM, 0);
+        let folds = source.folds(k as usize, seed)?;
+        TrainingEvaluator::with_folds(folds, None, trainer.clone())
+    }
+
     /// The evaluator of this job's candidates: k-fold when `trainer.folds`
     /// is set (folds drawn from the split seed, so every run on the same
     /// data and split shares them), one validation split otherwise.
@@ -357,11 +371,7 @@ impl SearchJob {
     ) -> Result<TrainingEvaluator> {
         let image = prepared.preprocessor.image_shape();
         match (trainer.folds, prepared.fold_source) {
-            (Some(k), Some(source)) => {
-                let seed = derive(self.source.split_seed, FOLD_ASSIGNMENT_STREAM, 0);
-                let folds = source.folds(k as usize, seed)?;
-                TrainingEvaluator::with_folds(folds, image, trainer.clone())
-            }
+            (Some(k), Some(source)) => self.fold_evaluator(&source, k, trainer),
             (Some(_), None) => Err(Error::input(
                 "k-fold scoring is for tables; image data is scored on one validation split \
                  (--folds off)",
