@@ -67,7 +67,9 @@ pub struct RunResult {
     pub evaluations_to_target: Option<u64>,
     /// Mean best-so-far objective over evaluations `1..=budget`.
     pub area_under_curve: f64,
-    /// Test score (trainer objective's name) of the first test opening, if finalized.
+    /// Test score (trainer objective's name) of the run's first test opening,
+    /// when that was the first opening of the test split by any run (the
+    /// test ledger's count; openings recorded by gemmule 0.1.0 count too).
     pub test_score: Option<f64>,
     /// How often the run's test split was opened.
     pub test_openings: usize,
@@ -227,9 +229,17 @@ impl Comparison {
             .iter()
             .filter_map(|r| r.objective)
             .min_by(f64::total_cmp);
+        // Only a first opening of the test split (by any run, as the test
+        // ledger counted it) is an unbiased test score; the runs of one
+        // comparison share their test split, so at most one run has it.
         let test_score = contents
             .openings
             .first()
+            .filter(|body| {
+                body.get("opening")
+                    .and_then(Value::as_u64)
+                    .is_none_or(|opening| opening == 1)
+            })
             .and_then(|body| body.get("test_scores"))
             .and_then(|scores| scores.get(objective))
             .and_then(Value::as_f64);
