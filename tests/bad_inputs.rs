@@ -1553,3 +1553,47 @@ fn every_case_is_documented() {
         "not in docs/bad-inputs.md: {undocumented:?}; in the doc but not tested: {unknown:?}"
     );
 }
+
+/// "R14": `finalize` whose test ledger cannot be written (`GEMMULE_LEDGER_DIR`
+/// names a regular file): an I/O failure, exit 1, one error line naming the
+/// path and the variable, nothing trained or written, the run unchanged.
+#[test]
+fn an_unwritable_test_ledger_is_an_io_failure_that_changes_nothing() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let data = write(dir.path(), "good.csv", good_rows());
+    let run = dir.path().join("run");
+    let made = gemmule(&search_args(&data, &run, &["--budget", "2", "--jobs", "1"]));
+    assert!(
+        made.status.success(),
+        "{}",
+        String::from_utf8_lossy(&made.stderr)
+    );
+    let blocker = write(
+        dir.path(),
+        "not-a-folder",
+        "a file where the ledger folder should be",
+    );
+    let before = snapshot(&run);
+    let mut command = Command::new(env!("CARGO_BIN_EXE_gemmule"));
+    private_dirs::isolate(&mut command);
+    let output = command
+        .args(["finalize", &s(&run)])
+        .env("GEMMULE_LEDGER_DIR", &blocker)
+        .env("RAYON_NUM_THREADS", "1")
+        .output()
+        .expect("the gemmule binary runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(1), "{stderr}");
+    let errors: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.starts_with("gemmule: error:"))
+        .collect();
+    assert_eq!(errors.len(), 1, "{stderr}");
+    assert!(
+        errors[0].contains("not-a-folder") && errors[0].contains("GEMMULE_LEDGER_DIR"),
+        "{stderr}"
+    );
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    assert_eq!(snapshot(&run), before, "the run is unchanged");
+    assert!(!run.join("final").exists());
+}
