@@ -557,8 +557,10 @@ impl PartResult {
     }
 }
 
-/// Balanced class weights of the rows `train` holds (see [`ClassWeighting::Balanced`]).
-fn balanced_weights(train: &Dataset) -> crate::Result<Vec<f32>> {
+/// Balanced class weights of the rows `train` holds (see
+/// [`ClassWeighting::Balanced`]), as the trainer takes them; also used by
+/// the final training on train+validation.
+pub(crate) fn balanced_weights(train: &Dataset) -> crate::Result<Vec<f32>> {
     let mut counts = vec![0usize; train.n_classes];
     for &class in &train.y {
         counts[class as usize] += 1;

@@ -6,6 +6,7 @@
 //! rows → [`Preprocessor::transform`] of each part; [`prepare`] does it all.
 
 mod cells;
+pub(crate) use cells::count_of;
 mod column_plan;
 mod csv_table;
 mod dataset;

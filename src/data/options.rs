@@ -60,15 +60,7 @@ impl SplitFractions {
                 )));
             }
         }
-        let sum = self.train + self.valid + self.test;
-        if (sum - 1.0).abs() > 1e-9 {
-            return Err(Error::input(format!(
-                "the split fractions train {} + validation {} + test {} sum to {sum}, not 1 \
-                 (--split); adjust them so they add up to 1",
-                self.train, self.valid, self.test
-            )));
-        }
-        Ok(())
+        self.check_sum()
     }
 }
 
@@ -124,6 +116,11 @@ impl SplitFractions {
                 self.test
             )));
         }
+        self.check_sum()
+    }
+
+    /// Refuses shares that do not add up to 1 (within 1e-9).
+    fn check_sum(&self) -> Result<()> {
         let sum = self.train + self.valid + self.test;
         if (sum - 1.0).abs() > 1e-9 {
             return Err(Error::input(format!(

@@ -103,7 +103,7 @@ pub fn finalize(run_dir: &Path, options: &FinalizeOptions) -> Result<FinalReport
             "{}: the test split of this run was already opened {}; a second look is no longer \
              an unbiased test. Pass --reopen to open it again (every report will show the count)",
             run_dir.display(),
-            count_of(run_openings, "time")
+            crate::data::count_of(run_openings, "time")
         )));
     }
     let prepared = job.source.prepare()?;
@@ -293,12 +293,7 @@ fn final_class_weights(job: &SearchJob, rows: &Dataset) -> Result<Option<Vec<f32
     if job.trainer.class_weight.is_none() {
         return Ok(None);
     }
-    let mut counts = vec![0usize; rows.n_classes];
-    for &class in &rows.y {
-        counts[class as usize] += 1;
-    }
-    let weights = crate::metrics::balanced_class_weights(&counts)?;
-    Ok(Some(weights.into_iter().map(|w| w as f32).collect()))
+    crate::evaluate::balanced_weights(rows).map(Some)
 }
 
 /// The linear baseline's genome (from the journal's baseline record; the
@@ -365,15 +360,6 @@ fn mcnemar_of(ours: &[f32], theirs: &[f32], labels: &[u32], n_classes: usize) ->
         pick_only_right: b,
         baseline_only_right: c,
         p_value: mcnemar_exact_p_value(b, c),
-    }
-}
-
-/// "1 time", "2 times".
-fn count_of(n: usize, unit: &str) -> String {
-    if n == 1 {
-        format!("1 {unit}")
-    } else {
-        format!("{n} {unit}s")
     }
 }
 
